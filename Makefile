@@ -1,0 +1,29 @@
+# tradeopt: quick start is `make demo` and `make test` on a fresh machine.
+PYTHON ?= python3.11
+VENV   := .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed
+
+.PHONY: install demo test bench clean
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+
+$(STAMP): $(BIN)/python pyproject.toml
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+install: $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/tradeopt optimize
+
+test: $(STAMP)
+	$(BIN)/python -m pytest
+
+bench: $(STAMP)
+	$(BIN)/python benchmarks/run_all.py
+
+clean:
+	rm -rf $(VENV) build *.egg-info .pytest_cache .hypothesis

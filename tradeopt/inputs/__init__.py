@@ -1,0 +1,1 @@
+"""Files to validated objects: catalogs (CSV), scenarios and link files (TOML)."""

@@ -1,0 +1,1 @@
+"""tradeopt outputs layer."""

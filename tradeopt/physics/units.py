@@ -1,0 +1,92 @@
+"""Physical constants and decibel helpers.
+
+All functions accept Python scalars, numpy arrays or pandas Series and return
+the same kind (a numpy float for a scalar input, never a 0-d array).
+
+References
+----------
+BIPM, *The International System of Units (SI)*, 9th edition (2019): exact
+values of the Boltzmann constant and the speed of light.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = [
+    "SPEED_OF_LIGHT_M_PER_S",
+    "BOLTZMANN_J_PER_K",
+    "BOLTZMANN_DBW_PER_K_HZ",
+    "EARTH_RADIUS_M",
+    "REFERENCE_TEMPERATURE_K",
+    "COSMIC_BACKGROUND_K",
+    "to_db",
+    "from_db",
+    "watts_to_dbw",
+    "dbw_to_watts",
+    "wavelength_m",
+    "restore_kind",
+]
+
+#: Speed of light in vacuum [m/s], exact (SI 2019).
+SPEED_OF_LIGHT_M_PER_S = 299_792_458.0
+#: Boltzmann constant [J/K], exact (SI 2019).
+BOLTZMANN_J_PER_K = 1.380649e-23
+#: Boltzmann constant in decibels [dBW/K/Hz]: 10 log10(k) = -228.5992 dBW/K/Hz.
+BOLTZMANN_DBW_PER_K_HZ = 10.0 * math.log10(BOLTZMANN_J_PER_K)
+#: Mean Earth radius [m] for spherical-Earth geometry (IUGG mean radius R1, 6371.0088 km).
+EARTH_RADIUS_M = 6_371_008.8
+#: Reference (room) temperature for noise figures and lossy lines [K] (IEEE noise-figure convention).
+REFERENCE_TEMPERATURE_K = 290.0
+#: Cosmic microwave background brightness temperature used by ITU-R P.618 [K].
+COSMIC_BACKGROUND_K = 2.7
+
+
+def restore_kind(value, like):
+    """Return ``value`` in the kind of ``like``.
+
+    A 0-d array becomes a numpy float; a pandas Series keeps ``like``'s index.
+
+    Parameters
+    ----------
+    value : array_like
+        The computed result.
+    like : scalar, numpy.ndarray or pandas.Series
+        An input whose kind the result should take.
+    """
+    try:
+        import pandas as pd  # local: pandas is only needed when a Series comes in
+    except ImportError:  # pragma: no cover
+        pd = None
+    if pd is not None and isinstance(like, pd.Series):
+        return pd.Series(np.asarray(value, dtype=float), index=like.index, name=None)
+    arr = np.asarray(value, dtype=float)
+    if arr.ndim == 0:
+        return np.float64(arr)
+    return arr
+
+
+def to_db(ratio):
+    """Power ratio to decibels, 10 log10(ratio) [dB]."""
+    return 10.0 * np.log10(ratio)
+
+
+def from_db(value_db):
+    """Decibels to power ratio, 10^(value_db / 10) [-]."""
+    return np.power(10.0, np.divide(value_db, 10.0))
+
+
+def watts_to_dbw(power_w):
+    """Power [W] to [dBW]."""
+    return to_db(power_w)
+
+
+def dbw_to_watts(power_dbw):
+    """Power [dBW] to [W]."""
+    return from_db(power_dbw)
+
+
+def wavelength_m(frequency_hz):
+    """Free-space wavelength c / f [m] for a frequency [Hz]."""
+    return np.divide(SPEED_OF_LIGHT_M_PER_S, frequency_hz)

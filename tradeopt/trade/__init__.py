@@ -1,0 +1,1 @@
+"""tradeopt trade layer."""
