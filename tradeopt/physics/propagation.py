@@ -1,0 +1,344 @@
+"""Earth-space propagation through the itur package (version 0.4.0).
+
+This is the only module of tradeopt that imports :mod:`itur`. It
+
+* converts itur's astropy Quantities to plain floats at the boundary,
+* validates every input against the stated range of the Recommendation that
+  uses it (itur 0.4.0 validates nothing and fails silently outside them),
+* guards the known traps of itur 0.4.0: a scalar site with an array of
+  elevations *and* an array of percentages or frequencies returns wrong gas
+  values, so percentages and frequencies are looped as scalars; the surface
+  temperature goes to the gas model in kelvin (as a Quantity); the surface
+  humidity ``H`` is never passed (a units bug in its scintillation path);
+  ``hs`` is in km; ``import itur`` changes numpy's error state, which is
+  restored here,
+* evaluates a grid without calling itur once per point: in the approximate
+  mode of ITU-R P.676 and in ITU-R P.840 the gaseous and cloud attenuations
+  are a zenith quantity divided by sin(elevation), so they are computed once
+  per (site, frequency, percentage) and scaled; rain and scintillation are
+  evaluated for all elevations in one vectorized call.
+
+The total attenuation follows ITU-R P.618-13 section 2.5,
+A = A_G + sqrt((A_R + A_C)^2 + A_S^2), with the gaseous and cloud terms (and
+the water-vapour inputs they use) taken at max(p, 1) % as that section states.
+
+References
+----------
+Recommendation ITU-R P.618-13 (12/2017): rain (section 2.2.1.1),
+scintillation (section 2.4.1), total (section 2.5).
+Recommendation ITU-R P.676-12 (08/2019), Annex 2: approximate slant-path gas.
+Recommendation ITU-R P.840-7 (12/2017): cloud attenuation.
+Recommendation ITU-R P.836-6, P.837-7, P.838-3, P.839-4, P.835-6,
+P.1510-1, P.453-13: their inputs, as implemented by itur 0.4.0.
+"""
+from __future__ import annotations
+
+import threading
+import warnings
+
+import numpy as np
+
+from .validity import ModelRangeError, check_range
+
+__all__ = [
+    "FREQUENCY_RANGE_HZ",
+    "ELEVATION_RANGE_DEG",
+    "PERCENT_RANGE",
+    "SCINTILLATION_STATED_RANGE_HZ",
+    "check_inputs",
+    "validity_notes",
+    "site_attenuation",
+    "site_climate",
+    "slant_path_attenuation",
+    "total_attenuation_db",
+    "recommendation_versions",
+    "itur_version",
+]
+
+#: Frequencies the whole chain accepts [Hz]: P.618-13 rain is stated for 1-55 GHz.
+FREQUENCY_RANGE_HZ = (1.0e9, 55.0e9)
+#: Elevations accepted with a site [deg]: P.676-12 Annex 2 slant-path method and
+#: P.618-13 section 2.4.1 scintillation are stated for elevations of 5 deg and above.
+ELEVATION_RANGE_DEG = (5.0, 90.0)
+#: Percentages of an average year accepted [%]: P.618-13 rain method, 0.001 % to 5 %.
+PERCENT_RANGE = (0.001, 5.0)
+#: Frequencies for which P.618-13 section 2.4.1 states its scintillation method [Hz].
+SCINTILLATION_STATED_RANGE_HZ = (4.0e9, 20.0e9)
+#: Earth-station altitudes accepted [m] (surface stations; the P.839 rain height is 0-5 km).
+ALTITUDE_RANGE_M = (-500.0, 6000.0)
+
+_REFERENCE_ELEVATION_DEG = 30.0
+_lock = threading.Lock()
+_itur = None
+
+
+def _load():
+    """Import itur once, thread-safely, restoring numpy's error state."""
+    global _itur
+    if _itur is None:
+        with _lock:
+            if _itur is None:
+                saved = np.geterr()
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")
+                    import itur  # noqa: PLC0415  (lazy: heavy, ~1 s and 0.5 GB)
+                    import itur.models.itu618  # noqa: F401
+                np.seterr(**saved)
+                _itur = itur
+    return _itur
+
+
+def itur_version() -> str:
+    """Version string of the itur package in use."""
+    return _load().__version__
+
+
+def recommendation_versions() -> dict[str, str]:
+    """The ITU-R Recommendation versions itur uses in this process.
+
+    Returns
+    -------
+    versions : dict
+        e.g. ``{"P.618": "P.618-13", "P.676": "P.676-12", ...}``.
+    """
+    itur = _load()
+    m = itur.models
+    out = {}
+    for name, mod in [("P.618", m.itu618), ("P.676", m.itu676), ("P.840", m.itu840),
+                      ("P.836", m.itu836), ("P.837", m.itu837), ("P.838", m.itu838),
+                      ("P.839", m.itu839), ("P.835", m.itu835), ("P.453", m.itu453),
+                      ("P.1510", m.itu1510)]:
+        out[name] = f"{name}-{int(mod.get_version())}"
+    return out
+
+
+def check_inputs(*, latitude_deg=0.0, longitude_deg=0.0, altitude_m=0.0, frequency_hz=None,
+                 elevation_deg=None, percent_of_year=None, antenna_diameter_m=None,
+                 antenna_efficiency=None) -> None:
+    """Validate propagation inputs against the stated model ranges.
+
+    Raises
+    ------
+    ModelRangeError
+        The first input outside its range, with the range and the model named.
+    """
+    check_range("latitude_deg", latitude_deg, -90.0, 90.0, "geographic latitude")
+    check_range("longitude_deg", longitude_deg, -180.0, 360.0, "geographic longitude")
+    check_range("altitude_m", altitude_m, *ALTITUDE_RANGE_M, "earth-station altitude for ITU-R P.618/P.839")
+    if frequency_hz is not None:
+        check_range("frequency_hz", frequency_hz, *FREQUENCY_RANGE_HZ, "ITU-R P.618-13 rain attenuation")
+    if elevation_deg is not None:
+        check_range("elevation_deg", elevation_deg, *ELEVATION_RANGE_DEG,
+                    "ITU-R P.676-12 Annex 2 and P.618-13 scintillation")
+    if percent_of_year is not None:
+        check_range("percent_of_year", percent_of_year, *PERCENT_RANGE,
+                    "ITU-R P.618-13 rain attenuation (availability 95 % to 99.999 %)")
+    if antenna_diameter_m is not None:
+        check_range("antenna_diameter_m", antenna_diameter_m, 0.0, 1.0e3, "ITU-R P.618-13 scintillation",
+                    low_open=True)
+    if antenna_efficiency is not None:
+        check_range("antenna_efficiency", antenna_efficiency, 0.0, 1.0, "aperture efficiency", low_open=True)
+
+
+def validity_notes(frequency_hz) -> list[str]:
+    """Plain-language notes where a model is used beyond its stated range but inside tradeopt's.
+
+    Parameters
+    ----------
+    frequency_hz : array_like
+        Frequencies in use [Hz].
+
+    Returns
+    -------
+    notes : list of str
+        Empty when every model is inside its stated range.
+    """
+    f = np.unique(np.asarray(frequency_hz, dtype=float))
+    out = []
+    lo, hi = SCINTILLATION_STATED_RANGE_HZ
+    outside = f[(f < lo) | (f > hi)]
+    if outside.size:
+        listed = ", ".join(f"{x / 1e9:g} GHz" for x in outside)
+        out.append(f"scintillation at {listed} extrapolates ITU-R P.618-13 section 2.4.1 beyond its stated 4-20 GHz")
+    return out
+
+
+def _value(q) -> np.ndarray:
+    """Strip an astropy Quantity to a float ndarray."""
+    return np.asarray(getattr(q, "value", q), dtype=float)
+
+
+def site_climate(*, latitude_deg: float, longitude_deg: float) -> dict[str, float]:
+    """Rain climate and surface temperature of a site.
+
+    Parameters
+    ----------
+    latitude_deg, longitude_deg : float
+        Site position [deg].
+
+    Returns
+    -------
+    climate : dict
+        ``rain_rate_001_mm_per_h`` (rain rate exceeded 0.01 % of an average year),
+        ``rain_height_m`` (mean 0 degC isotherm height plus 360 m) and
+        ``surface_temperature_k`` (annual mean surface temperature).
+
+    References
+    ----------
+    Recommendation ITU-R P.837-7 (06/2017), P.839-4 (09/2013), P.1510-1 (06/2017).
+    """
+    check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg)
+    models = _load().models
+    lat, lon = float(latitude_deg), float(longitude_deg)
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore")
+        r001 = float(_value(models.itu837.rainfall_rate(lat, lon, 0.01)))
+        h_r = float(_value(models.itu839.rain_height(lat, lon))) * 1000.0
+        t_s = float(_value(models.itu1510.surface_mean_temperature(lat, lon)))
+    return {"rain_rate_001_mm_per_h": r001, "rain_height_m": h_r, "surface_temperature_k": t_s}
+
+
+def site_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: float,
+                     frequency_hz: float, percent_of_year: float, elevation_deg,
+                     antenna_diameter_m: float, antenna_efficiency: float,
+                     polarization_tilt_deg: float = 45.0) -> dict[str, np.ndarray]:
+    """Slant-path attenuation terms for one site, frequency and percentage, many elevations.
+
+    Parameters
+    ----------
+    latitude_deg, longitude_deg : float
+        Earth-station position [deg].
+    altitude_m : float
+        Earth-station altitude above mean sea level [m].
+    frequency_hz : float
+        Frequency [Hz], 1-55 GHz.
+    percent_of_year : float
+        Percentage of an average year the attenuation is exceeded, p = 100 - availability [%].
+    elevation_deg : array_like
+        Elevation angles [deg], 5-90.
+    antenna_diameter_m : float
+        Earth-station antenna diameter [m] (scintillation aperture averaging).
+    antenna_efficiency : float
+        Earth-station antenna efficiency [-].
+    polarization_tilt_deg : float, optional
+        Polarization tilt relative to horizontal [deg]; 45 for circular.
+
+    Returns
+    -------
+    terms : dict of ndarray
+        ``gas_db``, ``cloud_db``, ``rain_db``, ``scintillation_db``, ``total_db``,
+        each shaped like ``elevation_deg``.
+
+    References
+    ----------
+    Recommendation ITU-R P.618-13 sections 2.2.1.1, 2.4.1 and 2.5; P.676-12
+    Annex 2; P.840-7.
+    """
+    el = np.atleast_1d(np.asarray(elevation_deg, dtype=float))
+    check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
+                 frequency_hz=frequency_hz, elevation_deg=el, percent_of_year=percent_of_year,
+                 antenna_diameter_m=antenna_diameter_m, antenna_efficiency=antenna_efficiency)
+    itur = _load()
+    import astropy.units as u  # noqa: PLC0415  (installed with itur)
+
+    lat = float(latitude_deg)
+    lon = float(longitude_deg)
+    hs_km = float(altitude_m) / 1000.0
+    f_ghz = float(frequency_hz) / 1e9
+    p = float(percent_of_year)
+    p_cg = max(1.0, p)  # P.618-13 section 2.5: gas and cloud at 1 % for p < 1 %
+    models = itur.models
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore")
+        t_k = float(_value(models.itu1510.surface_mean_temperature(lat, lon)))
+        p_hpa = float(_value(models.itu835.standard_pressure(hs_km)))
+        v_t = float(_value(models.itu836.total_water_vapour_content(lat, lon, p_cg, hs_km)))
+        rho = float(_value(models.itu836.surface_water_vapour_density(lat, lon, p_cg, hs_km)))
+        el_ref = _REFERENCE_ELEVATION_DEG
+        gas_ref = float(_value(models.itu676.gaseous_attenuation_slant_path(
+            f_ghz, el_ref, rho, p_hpa, t_k * u.K, v_t, hs_km, "approx")))
+        cloud_ref = float(_value(models.itu840.cloud_attenuation(lat, lon, el_ref, f_ghz, p_cg)))
+        rain = _value(models.itu618.rain_attenuation(
+            lat, lon, f_ghz, el, hs_km, p, None, float(polarization_tilt_deg), None)).reshape(el.shape)
+        scint = _value(models.itu618.scintillation_attenuation(
+            lat, lon, f_ghz, el, p, float(antenna_diameter_m), float(antenna_efficiency))).reshape(el.shape)
+    scale = np.sin(np.radians(el_ref)) / np.sin(np.radians(el))
+    gas = gas_ref * scale
+    cloud = cloud_ref * scale
+    total = total_attenuation_db(gas, cloud, rain, scint)
+    terms = {"gas_db": gas, "cloud_db": cloud, "rain_db": rain, "scintillation_db": scint, "total_db": total}
+    for name, arr in terms.items():
+        if not np.all(np.isfinite(arr)):
+            raise ModelRangeError(name, float(arr[~np.isfinite(arr)][0]), 0.0, np.inf,
+                                  "itur 0.4.0 (non-finite result; report this input)")
+    return terms
+
+
+def total_attenuation_db(gas_db, cloud_db, rain_db, scintillation_db):
+    """Combine the components, A = A_G + sqrt((A_R + A_C)^2 + A_S^2) [dB].
+
+    References
+    ----------
+    Recommendation ITU-R P.618-13 (12/2017), section 2.5, eq. (64).
+    """
+    return np.asarray(gas_db) + np.sqrt((np.asarray(rain_db) + np.asarray(cloud_db)) ** 2
+                                        + np.asarray(scintillation_db) ** 2)
+
+
+def slant_path_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: float,
+                           frequency_hz, elevation_deg, percent_of_year, antenna_diameter_m,
+                           antenna_efficiency, polarization_tilt_deg: float = 45.0) -> dict[str, np.ndarray]:
+    """Attenuation terms for one site over broadcast arrays of the other inputs.
+
+    ``frequency_hz``, ``elevation_deg``, ``percent_of_year``,
+    ``antenna_diameter_m`` and ``antenna_efficiency`` broadcast together.
+    itur is called once per distinct (frequency, percentage, diameter,
+    efficiency) with every elevation at once, never once per point.
+
+    Parameters
+    ----------
+    latitude_deg, longitude_deg : float
+        Earth-station position [deg].
+    altitude_m : float
+        Earth-station altitude [m].
+    frequency_hz : array_like
+        [Hz], 1-55 GHz.
+    elevation_deg : array_like
+        [deg], 5-90.
+    percent_of_year : array_like
+        p = 100 - availability [%], 0.001-5.
+    antenna_diameter_m, antenna_efficiency : array_like
+        Earth-station aperture [m] and efficiency [-] (scintillation).
+    polarization_tilt_deg : float, optional
+        [deg]; 45 for circular polarization.
+
+    Returns
+    -------
+    terms : dict of ndarray
+        ``gas_db``, ``cloud_db``, ``rain_db``, ``scintillation_db``, ``total_db``
+        in the broadcast shape.
+
+    References
+    ----------
+    Recommendation ITU-R P.618-13 section 2.5; P.676-12 Annex 2; P.840-7.
+    """
+    arrays = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
+        frequency_hz, elevation_deg, percent_of_year, antenna_diameter_m, antenna_efficiency)))
+    shape = arrays[0].shape
+    f, el, p, d, eta = (a.reshape(-1) for a in arrays)
+    check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
+                 frequency_hz=f, elevation_deg=el, percent_of_year=p, antenna_diameter_m=d,
+                 antenna_efficiency=eta)
+    keys = np.stack([f, p, d, eta], axis=1)
+    unique, inverse = np.unique(keys, axis=0, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    out = {k: np.empty(f.shape) for k in ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")}
+    for i, (fi, pi, di, ei) in enumerate(unique):
+        sel = inverse == i
+        terms = site_attenuation(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
+                                 frequency_hz=fi, percent_of_year=pi, elevation_deg=el[sel],
+                                 antenna_diameter_m=di, antenna_efficiency=ei,
+                                 polarization_tilt_deg=polarization_tilt_deg)
+        for k, v in terms.items():
+            out[k][sel] = v
+    return {k: v.reshape(shape) for k, v in out.items()}
