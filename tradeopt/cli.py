@@ -1,0 +1,140 @@
+"""Command line: ``tradeopt budget | optimize | demand | contacts | catalog check``.
+
+Thin: parse, call, print. Heavy imports happen inside the commands so that
+``tradeopt --help`` stays fast. Bad input prints one line on stderr and exits
+with status 2.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+__all__ = ["main", "build_parser"]
+
+EXIT_BAD_INPUT = 2
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser (kept importable for documentation and tests)."""
+    from . import __version__
+
+    parser = argparse.ArgumentParser(
+        prog="tradeopt",
+        description="Spacecraft link trades: ITU-R link budgets, catalog design-space search, "
+                    "Pareto fronts, band comparison and dish-size curves. Design-stage estimates only.",
+    )
+    parser.add_argument("--version", action="version", version=f"tradeopt {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser("budget", help="term-by-term budget of one link file (TOML)")
+    p.add_argument("link_file", metavar="LINK.toml", help="link file; see README, 'Link files'")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
+    p.add_argument("--out", metavar="DIR", help="also write budget.json and budget.txt into DIR")
+
+    p = sub.add_parser("optimize", help="search the catalog design space of a scenario")
+    p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?",
+                   help="scenario file; default: the embedded demo scenario")
+    p.add_argument("--objective", choices=("mass", "power"), default=None,
+                   help="minimise spacecraft comm mass or DC power (default: the scenario's)")
+    p.add_argument("--out", metavar="DIR", help="results folder (default results/<scenario name>)")
+    p.add_argument("--json", action="store_true", help="print a JSON summary")
+
+    p = sub.add_parser("demand", help="data demand: from the instruments to bits per day")
+    p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
+    p.add_argument("--json", action="store_true", help="print JSON")
+
+    p = sub.add_parser("contacts", help="passes, gaps and elevation histograms per ground site")
+    p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
+    p.add_argument("--days", type=float, default=None, help="span to propagate [days] (default: the scenario's)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+
+    p = sub.add_parser("catalog", help="catalog tools")
+    csub = p.add_subparsers(dest="catalog_command", metavar="ACTION")
+    c = csub.add_parser("check", help="validate every catalog CSV file")
+    c.add_argument("--catalogs", metavar="DIR", help="catalog folder (default: the bundled catalogs/)")
+    return parser
+
+
+def _cmd_budget(args) -> int:
+    from .inputs.linkfile import load_link_file
+    from .outputs.provenance import clean_for_json, versions
+    from .outputs.tables import budget_record, format_budget
+    from .trade.linkcalc import compute_link
+
+    spec = load_link_file(args.link_file)
+    from .inputs.linkfile import locate_model_error
+    try:
+        result = compute_link(spec)
+    except ValueError as exc:
+        raise locate_model_error(exc, spec) from None
+    record = budget_record(result)
+    record["versions"] = versions(with_recommendations=spec.site is not None)
+    record = clean_for_json(record)
+    text = format_budget(result, title=f"tradeopt budget: {args.link_file}")
+    if args.out:
+        from .outputs.writer import write_results
+        write_results(args.out, {"budget.json": json.dumps(record, indent=2, sort_keys=True) + "\n",
+                                 "budget.txt": text + "\n"})
+    print(json.dumps(record, indent=2, sort_keys=True) if args.json else text)
+    return 0
+
+
+def _cmd_catalog(args) -> int:
+    if args.catalog_command != "check":
+        print("tradeopt catalog: give an action, e.g. 'tradeopt catalog check'", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    from .inputs.catalog import load_catalog
+
+    cat = load_catalog(args.catalogs)
+    counts = ", ".join(f"{name} {len(getattr(cat, name))}" for name in
+                       ("bands", "ground_antennas", "spacecraft_antennas", "amplifiers", "modcods", "pfd_limits"))
+    print(f"catalogs in {cat.directory}: all valid ({counts} rows)")
+    return 0
+
+
+def _cmd_optimize(args) -> int:
+    from .trade.run import run_optimize
+
+    return run_optimize(scenario_path=args.scenario, objective=args.objective, out_dir=args.out,
+                        as_json=args.json)
+
+
+def _cmd_demand(args) -> int:
+    from .trade.run import run_demand
+
+    return run_demand(scenario_path=args.scenario, as_json=args.json)
+
+
+def _cmd_contacts(args) -> int:
+    from .trade.run import run_contacts
+
+    return run_contacts(scenario_path=args.scenario, days=args.days, as_json=args.json)
+
+
+_COMMANDS = {"budget": _cmd_budget, "catalog": _cmd_catalog, "optimize": _cmd_optimize,
+             "demand": _cmd_demand, "contacts": _cmd_contacts}
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``tradeopt`` console script; returns the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 0
+    from .inputs.errors import InputError
+    from .physics.validity import ModelRangeError
+
+    try:
+        return _COMMANDS[args.command](args)
+    except InputError as exc:
+        print(f"tradeopt {args.command}: {exc.line()}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except ModelRangeError as exc:
+        print(f"tradeopt {args.command}: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

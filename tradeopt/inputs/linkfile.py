@@ -1,0 +1,432 @@
+"""Link files (TOML) for ``tradeopt budget``: one link, each element by catalog ID or by value.
+
+The keys are documented in the README (section "Link files"). Every key has
+its unit in its name; an unknown key is an error, never ignored.
+"""
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .catalog import Catalog, load_catalog
+from .errors import InputError
+from .schema import MISSING, Field, check_known, convert
+
+__all__ = ["LinkSpec", "LINK_SCHEMA", "read_toml", "load_link_file", "link_spec_from_dict", "locate_model_error"]
+
+_pos = dict(low=0.0, low_open=True)
+
+#: Keys of a link file, table by table.
+LINK_SCHEMA: dict[str, list[Field]] = {
+    "link": [
+        Field("direction", "choice", choices=("downlink", "uplink")),
+        Field("band", "str", required=False),
+        Field("frequency_hz", unit="Hz", required=False, **_pos),
+        Field("availability_percent", unit="%", required=False, low=0.0, high=100.0, low_open=True,
+              high_open=True),
+        Field("range_m", unit="m", required=False, **_pos),
+        Field("altitude_m", unit="m", required=False, **_pos),
+        Field("elevation_deg", unit="deg", low=0.0, high=90.0, low_open=True),
+        Field("polarization_tilt_deg", unit="deg", required=False, default=45.0, low=0.0, high=90.0),
+        Field("catalogs", "str", required=False),
+    ],
+    "site": [
+        Field("latitude_deg", unit="deg", low=-90.0, high=90.0),
+        Field("longitude_deg", unit="deg", low=-180.0, high=360.0),
+        Field("altitude_m", unit="m", low=-500.0, high=6000.0),
+        Field("name", "str", required=False),
+    ],
+    "transmitter": [
+        Field("amplifier", "str", required=False),
+        Field("antenna", "str", required=False),
+        Field("power_w", unit="W", required=False, **_pos),
+        Field("line_loss_db", unit="dB", required=False, low=0.0),
+        Field("antenna_gain_dbi", unit="dBi", required=False, low=-20.0, high=90.0),
+        Field("antenna_diameter_m", unit="m", required=False, **_pos),
+        Field("antenna_efficiency", required=False, low=0.0, high=1.0, low_open=True),
+        Field("beamwidth_deg", unit="deg", required=False, low=0.0, high=360.0, low_open=True),
+        Field("pointing_error_deg", unit="deg", required=False, low=0.0, high=90.0),
+    ],
+    "receiver": [
+        Field("antenna", "str", required=False),
+        Field("antenna_gain_dbi", unit="dBi", required=False, low=-20.0, high=90.0),
+        Field("antenna_diameter_m", unit="m", required=False, **_pos),
+        Field("antenna_efficiency", required=False, low=0.0, high=1.0, low_open=True),
+        Field("beamwidth_deg", unit="deg", required=False, low=0.0, high=360.0, low_open=True),
+        Field("system_noise_temperature_k", unit="K", required=False, **_pos),
+        Field("gt_dbk", unit="dB/K", required=False, low=-100.0, high=100.0),
+        Field("pointing_error_deg", unit="deg", required=False, low=0.0, high=90.0),
+    ],
+    "losses": [
+        Field("polarization_db", unit="dB", required=False, low=0.0),
+        Field("other_db", unit="dB", required=False, low=0.0),
+    ],
+    "waveform": [
+        Field("rate_bps", unit="bit/s", **_pos),
+        Field("modcod", "str", required=False),
+        Field("ebn0_required_db", unit="dB", required=False, low=-2.0, high=40.0),
+        Field("implementation_loss_db", unit="dB", required=False, low=0.0),
+        Field("required_margin_db", unit="dB", required=False),
+    ],
+}
+_REQUIRED_TABLES = ("link", "transmitter", "receiver", "waveform")
+
+
+@dataclass
+class End:
+    """One end of the link, in numbers."""
+
+    gain_dbi: float | None = None
+    diameter_m: float | None = None
+    efficiency: float | None = None
+    beamwidth_deg: float | None = None
+    pointing_error_deg: float = 0.0
+    item_id: str | None = None
+
+
+@dataclass
+class LinkSpec:
+    """A link, fully resolved to numbers (catalog IDs already looked up).
+
+    Attributes carry units in their names; ``assumptions`` lists every default
+    or simplification applied, for the printed table.
+    """
+
+    direction: str
+    frequency_hz: float
+    elevation_deg: float
+    rate_bps: float
+    ebn0_required_db: float
+    tx_power_w: float
+    tx: End
+    rx: End
+    band_id: str | None = None
+    availability_percent: float | None = None
+    range_m: float | None = None
+    altitude_m: float | None = None
+    site: dict | None = None
+    polarization_tilt_deg: float = 45.0
+    tx_line_loss_db: float = 0.0
+    rx_clear_sky_noise_temperature_k: float | None = None
+    rx_feed_loss_db: float = 0.0
+    polarization_loss_db: float = 0.0
+    other_losses_db: float = 0.0
+    implementation_loss_db: float = 0.0
+    required_margin_db: float = 0.0
+    modcod_id: str | None = None
+    amplifier_id: str | None = None
+    assumptions: list = field(default_factory=list)
+    file: str | None = None
+
+
+def read_toml(path: Path | str) -> dict:
+    """Parse a TOML file; a malformed file becomes an :class:`InputError`."""
+    fname = str(path)
+    try:
+        with open(path, "rb") as fh:
+            data = tomllib.load(fh)
+    except FileNotFoundError:
+        raise InputError("file not found; expected a TOML file", file=fname) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"is not valid TOML: {exc}", file=fname) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot be read ({exc.__class__.__name__})", file=fname) from None
+    if not data:
+        raise InputError("file is empty; expected the tables [link], [transmitter], [receiver], [waveform]",
+                         file=fname)
+    return data
+
+
+def _table(data: dict, name: str, file: str | None) -> dict:
+    raw = data.get(name, {})
+    if not isinstance(raw, dict):
+        raise InputError(f"expected a table [{name}]", file=file, where=f"key {name}")
+    check_known(raw.keys(), [f.name for f in LINK_SCHEMA[name]], file=file, where=f"table [{name}]", what="key")
+    return {f.name: convert(raw.get(f.name, MISSING), f, file=file, where=f"key [{name}] {f.name}")
+            for f in LINK_SCHEMA[name]}
+
+
+def _lookup(table, column: str, value: str, *, file, where, what: str):
+    rows = table[table[column] == value]
+    if rows.empty:
+        import difflib  # noqa: PLC0415
+        hint = difflib.get_close_matches(value, sorted(set(table[column])), n=1)
+        tip = f"; did you mean {hint[0]!r}?" if hint else f"; known: {', '.join(sorted(set(table[column])))}"
+        raise InputError(f"unknown {what} {value!r}{tip}", file=file, where=where)
+    return rows
+
+
+def _one_of(values: dict, names: tuple, *, file, table: str, need: bool = True):
+    given = [n for n in names if values.get(n) is not None]
+    if len(given) > 1:
+        raise InputError(f"give only one of {', '.join(names)}", file=file, where=f"table [{table}]")
+    if need and not given:
+        raise InputError(f"missing; give one of {', '.join(names)}", file=file, where=f"table [{table}]")
+    return given[0] if given else None
+
+
+def _band_letter_of_frequency(cat: Catalog, frequency_hz: float) -> str | None:
+    b = cat.bands
+    hit = b[(b["lower_hz"] <= frequency_hz) & (b["upper_hz"] >= frequency_hz)]
+    return None if hit.empty else str(hit.iloc[0]["band"])
+
+
+def _explicit_end(v: dict, *, file, table: str) -> End:
+    which = _one_of(v, ("antenna", "antenna_gain_dbi", "antenna_diameter_m"), file=file, table=table)
+    end = End(pointing_error_deg=v.get("pointing_error_deg") or 0.0, beamwidth_deg=v.get("beamwidth_deg"))
+    if which == "antenna_gain_dbi":
+        end.gain_dbi = v["antenna_gain_dbi"]
+        if v.get("antenna_efficiency") is not None:
+            raise InputError("antenna_efficiency goes with antenna_diameter_m, not with antenna_gain_dbi",
+                             file=file, where=f"key [{table}] antenna_efficiency")
+        if end.pointing_error_deg > 0 and end.beamwidth_deg is None:
+            raise InputError("pointing_error_deg with antenna_gain_dbi needs beamwidth_deg (or give "
+                             "antenna_diameter_m and antenna_efficiency instead)", file=file,
+                             where=f"key [{table}] pointing_error_deg")
+    elif which == "antenna_diameter_m":
+        if v.get("antenna_efficiency") is None:
+            raise InputError("missing; antenna_diameter_m needs antenna_efficiency (0 to 1)", file=file,
+                             where=f"key [{table}] antenna_efficiency")
+        end.diameter_m = v["antenna_diameter_m"]
+        end.efficiency = v["antenna_efficiency"]
+    return end
+
+
+def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog | None = None) -> LinkSpec:
+    """Resolve a parsed link file to a :class:`LinkSpec`.
+
+    Parameters
+    ----------
+    data : dict
+        The parsed TOML.
+    file : str, optional
+        File name for messages.
+    catalog : Catalog, optional
+        Catalogs for IDs; loaded from ``[link] catalogs`` or the bundled ones when needed.
+
+    Raises
+    ------
+    InputError
+        Any missing, unknown, inconsistent or out-of-range key.
+    """
+    check_known(data.keys(), list(LINK_SCHEMA), file=file, where="top level", what="table")
+    for name in _REQUIRED_TABLES:
+        if name not in data:
+            raise InputError(f"missing table [{name}]", file=file, where=f"table [{name}]")
+    link = _table(data, "link", file)
+    site = _table(data, "site", file) if "site" in data else None
+    tx = _table(data, "transmitter", file)
+    rx = _table(data, "receiver", file)
+    losses = _table(data, "losses", file)
+    wave = _table(data, "waveform", file)
+    assumptions: list[str] = []
+
+    uses_catalog = any(x is not None for x in (link["band"], tx["amplifier"], tx["antenna"], rx["antenna"],
+                                                wave["modcod"]))
+    if uses_catalog and catalog is None:
+        cat_dir = link["catalogs"]
+        if cat_dir is not None and file is not None:
+            cat_dir = str((Path(file).parent / cat_dir))
+        catalog = load_catalog(cat_dir)
+
+    direction = link["direction"]
+    ground_end, space_end = ("rx", "tx") if direction == "downlink" else ("tx", "rx")
+
+    # Frequency and band.
+    _one_of(link, ("band", "frequency_hz"), file=file, table="link")
+    band_id = link["band"]
+    if band_id is not None:
+        row = _lookup(catalog.bands, "band_id", band_id, file=file, where="key [link] band", what="band").iloc[0]
+        if row["direction"] != direction:
+            raise InputError(f"band {band_id!r} is a {row['direction']} band; the link is a {direction}",
+                             file=file, where="key [link] band")
+        frequency_hz = float(row["centre_frequency_hz"])
+        band_letter = str(row["band"])
+        assumptions.append(f"frequency: centre of {band_id}, {frequency_hz / 1e9:g} GHz")
+    else:
+        frequency_hz = link["frequency_hz"]
+        band_letter = _band_letter_of_frequency(catalog, frequency_hz) if catalog is not None else None
+
+    def check_band(item_band: str, item: str, where: str):
+        if band_letter is not None and item_band != band_letter:
+            raise InputError(f"{item} is a {item_band}-band item; the link is {band_letter}-band", file=file,
+                             where=where)
+        if band_letter is None:
+            raise InputError(f"{item} is a {item_band}-band item; the link frequency "
+                             f"{frequency_hz / 1e9:g} GHz is in no catalog band", file=file, where=where)
+
+    # Geometry.
+    which = _one_of(link, ("range_m", "altitude_m"), file=file, table="link")
+    elevation_deg = link["elevation_deg"]
+    if which == "altitude_m":
+        assumptions.append("slant range from altitude_m and elevation_deg over a spherical Earth")
+
+    # Site and availability.
+    availability = link["availability_percent"]
+    if site is not None:
+        if availability is None:
+            raise InputError("missing; availability_percent is needed when a [site] is given", file=file,
+                             where="key [link] availability_percent")
+    else:
+        assumptions.append("free space only: no [site] given, so no atmospheric terms and no sky-noise increase")
+        if availability is not None:
+            assumptions.append("availability_percent has no effect without a [site]")
+
+    # Ends.
+    ends = {}
+    clear_t = None
+    feed_loss_db = 0.0
+    tx_power_w = None
+    amplifier_id = None
+    for name, v, table in (("tx", tx, "transmitter"), ("rx", rx, "receiver")):
+        if v["antenna"] is not None:
+            others = [k for k in ("antenna_gain_dbi", "antenna_diameter_m", "antenna_efficiency", "beamwidth_deg")
+                      if v.get(k) is not None]
+            if others:
+                raise InputError(f"give the antenna by catalog ID or by values, not both ({others[0]})",
+                                 file=file, where=f"key [{table}] antenna")
+            where = f"key [{table}] antenna"
+            if name == ground_end:
+                rows = _lookup(catalog.ground_antennas, "ground_antenna_id", v["antenna"], file=file, where=where,
+                               what="ground antenna")
+                if band_letter is None or rows[rows["band"] == band_letter].empty:
+                    bands = ", ".join(rows["band"])
+                    raise InputError(f"ground antenna {v['antenna']!r} supports {bands}; the link is "
+                                     f"{band_letter or 'outside every catalog'} band", file=file, where=where)
+                r = rows[rows["band"] == band_letter].iloc[0]
+                end = End(diameter_m=float(r["diameter_m"]), efficiency=float(r["efficiency"]),
+                          pointing_error_deg=float(r["pointing_error_deg"]), item_id=v["antenna"])
+                if name == "rx":
+                    from ..physics.noise import system_noise_temperature_k  # noqa: PLC0415
+                    clear_t = float(system_noise_temperature_k(r["antenna_noise_temperature_k"], r["feed_loss_db"],
+                                                               r["lna_noise_temperature_k"]))
+                    feed_loss_db = float(r["feed_loss_db"])
+                    assumptions.append("clear-sky system noise temperature from the catalog by the Friis cascade "
+                                       "(feed at 290 K)")
+                else:
+                    tx_power_w = float(r["max_tx_power_w"])
+            else:
+                rows = _lookup(catalog.spacecraft_antennas, "spacecraft_antenna_id", v["antenna"], file=file,
+                               where=where, what="spacecraft antenna")
+                r = rows.iloc[0]
+                check_band(r["band"], f"spacecraft antenna {v['antenna']!r}", where)
+                if r["kind"] == "reflector":
+                    end = End(diameter_m=float(r["diameter_m"]), efficiency=float(r["efficiency"]),
+                              pointing_error_deg=float(r["pointing_error_deg"]), item_id=v["antenna"])
+                else:
+                    end = End(gain_dbi=float(r["gain_dbi"]), item_id=v["antenna"])
+                    assumptions.append(f"{v['antenna']}: catalog gain is the gain over the directions used; "
+                                       "no separate pointing loss")
+                if name == "tx" and tx["line_loss_db"] is None:
+                    tx["line_loss_db"] = float(r["line_loss_db"])
+            if v.get("pointing_error_deg") is not None:
+                end.pointing_error_deg = v["pointing_error_deg"]
+        else:
+            end = _explicit_end(v, file=file, table=table)
+        ends[name] = end
+
+    # Transmit power.
+    which = _one_of(tx, ("amplifier", "power_w"), file=file, table="transmitter", need=tx_power_w is None)
+    if which == "amplifier":
+        if direction == "uplink":
+            raise InputError("amplifiers in the catalog are spacecraft amplifiers; for an uplink give power_w",
+                             file=file, where="key [transmitter] amplifier")
+        r = _lookup(catalog.amplifiers, "amplifier_id", tx["amplifier"], file=file,
+                    where="key [transmitter] amplifier", what="amplifier").iloc[0]
+        check_band(r["band"], f"amplifier {tx['amplifier']!r}", "key [transmitter] amplifier")
+        tx_power_w = float(r["rf_power_w"])
+        amplifier_id = tx["amplifier"]
+    elif which == "power_w":
+        tx_power_w = tx["power_w"]
+    else:
+        assumptions.append(f"transmit power: the ground antenna's max_tx_power_w, {tx_power_w:g} W")
+
+    # Receiver noise.
+    which = _one_of(rx, ("system_noise_temperature_k", "gt_dbk"), file=file, table="receiver",
+                    need=clear_t is None)
+    if which is not None and clear_t is not None:
+        raise InputError(f"{which} overrides the catalog antenna's noise; give one or the other", file=file,
+                         where=f"key [receiver] {which}")
+    rx_end = ends["rx"]
+    if which == "system_noise_temperature_k":
+        clear_t = rx["system_noise_temperature_k"]
+    elif which == "gt_dbk":
+        if rx_end.gain_dbi is None and rx_end.diameter_m is None:
+            raise InputError("gt_dbk needs the receive antenna's gain or diameter to split G and T", file=file,
+                             where="key [receiver] gt_dbk")
+        from ..physics.antenna import parabolic_gain_dbi  # noqa: PLC0415
+        g = rx_end.gain_dbi if rx_end.gain_dbi is not None else float(
+            parabolic_gain_dbi(rx_end.diameter_m, frequency_hz, rx_end.efficiency))
+        clear_t = 10.0 ** ((g - rx["gt_dbk"]) / 10.0)
+        assumptions.append(f"clear-sky system noise temperature {clear_t:.1f} K from gt_dbk and the antenna gain")
+
+    # Scintillation needs the ground aperture.
+    if site is not None:
+        g = ends[ground_end]
+        if g.diameter_m is None:
+            table = "receiver" if ground_end == "rx" else "transmitter"
+            raise InputError("with a [site], the ground antenna needs antenna_diameter_m and antenna_efficiency "
+                             "(ITU-R P.618-13 scintillation depends on the aperture)", file=file,
+                             where=f"table [{table}]")
+
+    # Waveform.
+    _one_of(wave, ("modcod", "ebn0_required_db"), file=file, table="waveform")
+    if wave["modcod"] is not None:
+        r = _lookup(catalog.modcods, "modcod_id", wave["modcod"], file=file, where="key [waveform] modcod",
+                    what="modcod").iloc[0]
+        ebn0_req = float(r["ebn0_required_db"])
+        assumptions.append(f"required Eb/N0 of {wave['modcod']}: {ebn0_req:.2f} dB at {r['error_target']} "
+                           f"({r['source']})")
+    else:
+        ebn0_req = wave["ebn0_required_db"]
+    for key, table, value in (("line_loss_db", "transmitter", tx["line_loss_db"]),
+                              ("polarization_db", "losses", losses["polarization_db"]),
+                              ("other_db", "losses", losses["other_db"]),
+                              ("implementation_loss_db", "waveform", wave["implementation_loss_db"]),
+                              ("required_margin_db", "waveform", wave["required_margin_db"])):
+        if value is None:
+            assumptions.append(f"[{table}] {key} not given: 0 dB")
+
+    return LinkSpec(
+        direction=direction, frequency_hz=frequency_hz, elevation_deg=elevation_deg,
+        rate_bps=wave["rate_bps"], ebn0_required_db=ebn0_req, tx_power_w=tx_power_w,
+        tx=ends["tx"], rx=ends["rx"], band_id=band_id, availability_percent=availability,
+        range_m=link["range_m"], altitude_m=link["altitude_m"], site=site,
+        polarization_tilt_deg=link["polarization_tilt_deg"],
+        tx_line_loss_db=tx["line_loss_db"] or 0.0, rx_clear_sky_noise_temperature_k=clear_t,
+        rx_feed_loss_db=feed_loss_db,
+        polarization_loss_db=losses["polarization_db"] or 0.0, other_losses_db=losses["other_db"] or 0.0,
+        implementation_loss_db=wave["implementation_loss_db"] or 0.0,
+        required_margin_db=wave["required_margin_db"] or 0.0, modcod_id=wave["modcod"],
+        amplifier_id=amplifier_id, assumptions=assumptions, file=file)
+
+
+def load_link_file(path: Path | str) -> LinkSpec:
+    """Read and resolve a link file; see :func:`link_spec_from_dict`."""
+    return link_spec_from_dict(read_toml(path), file=str(path))
+
+
+def locate_model_error(exc: Exception, spec: LinkSpec) -> InputError:
+    """Turn a model-range error raised while computing ``spec`` into an :class:`InputError` naming the key."""
+    from ..physics.validity import ModelRangeError  # noqa: PLC0415
+
+    if not isinstance(exc, ModelRangeError):
+        return InputError(str(exc), file=spec.file)
+    ground_table = "receiver" if spec.direction == "downlink" else "transmitter"
+    keys = {
+        "elevation_deg": "[link] elevation_deg",
+        "frequency_hz": "[link] band" if spec.band_id else "[link] frequency_hz",
+        "latitude_deg": "[site] latitude_deg",
+        "longitude_deg": "[site] longitude_deg",
+        "altitude_m": "[site] altitude_m",
+        "antenna_diameter_m": f"[{ground_table}] antenna_diameter_m",
+        "antenna_efficiency": f"[{ground_table}] antenna_efficiency",
+    }
+    if exc.parameter == "percent_of_year":
+        low, high = 100.0 - exc.high, 100.0 - exc.low
+        return InputError(f"availability_percent = {100.0 - exc.value:g} is outside the validity of {exc.model} "
+                          f"({low:g} to {high:g}); choose a value in that range", file=spec.file,
+                          where="key [link] availability_percent")
+    where = keys.get(exc.parameter)
+    return InputError(str(exc), file=spec.file, where=f"key {where}" if where else None)

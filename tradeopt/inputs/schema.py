@@ -1,0 +1,185 @@
+"""Field-by-field validation shared by the CSV catalogs and the TOML files.
+
+A :class:`Field` says what one column or key must hold; :func:`convert` turns a
+raw value into a Python value or raises :class:`InputError` naming the file,
+the row or key, and what was expected.
+"""
+from __future__ import annotations
+
+import difflib
+import math
+from dataclasses import dataclass
+from typing import Any
+
+from .errors import InputError
+
+__all__ = ["Field", "convert", "check_known", "MISSING"]
+
+MISSING = object()
+
+
+@dataclass(frozen=True)
+class Field:
+    """What one catalog column or file key must hold.
+
+    Parameters
+    ----------
+    name : str
+        Column or key name, with its unit.
+    kind : str
+        ``"float"``, ``"int"``, ``"str"``, ``"bool"``, ``"choice"`` or ``"str_list"``.
+    required : bool
+        Whether it must be present and non-empty.
+    low, high : float, optional
+        Closed bounds for numbers (``low_open``/``high_open`` make them open).
+    choices : tuple of str
+        Allowed values for ``"choice"`` (and items of ``"str_list"`` when given).
+    default : object
+        Value used when absent and not required.
+    unit : str
+        Unit shown in messages.
+    """
+
+    name: str
+    kind: str = "float"
+    required: bool = True
+    low: float | None = None
+    high: float | None = None
+    low_open: bool = False
+    high_open: bool = False
+    choices: tuple = ()
+    default: Any = None
+    unit: str = ""
+
+    def expectation(self) -> str:
+        """Plain description of what the field must hold."""
+        if self.kind in ("float", "int"):
+            noun = "an integer" if self.kind == "int" else "a number"
+            lo = hi = ""
+            if self.low is not None:
+                lo = f"{'>' if self.low_open else '>='} {self.low:g}"
+            if self.high is not None:
+                hi = f"{'<' if self.high_open else '<='} {self.high:g}"
+            bounds = " and ".join(b for b in (lo, hi) if b)
+            unit = f" {self.unit}" if self.unit else ""
+            return f"{noun}{unit}" + (f" {bounds}" if bounds else "")
+        if self.kind == "choice":
+            return "one of " + ", ".join(repr(c) for c in self.choices)
+        if self.kind == "bool":
+            return "true or false"
+        if self.kind == "str_list":
+            return "a list of names" + (" from " + ", ".join(repr(c) for c in self.choices) if self.choices else "")
+        return "a non-empty text"
+
+
+def _fail(field: Field, value, file, where, detail: str = "") -> InputError:
+    shown = repr(value) if not isinstance(value, float) else f"{value:g}"
+    extra = f" ({detail})" if detail else ""
+    return InputError(f"expected {field.expectation()}, got {shown}{extra}", file=file, where=where)
+
+
+def convert(raw, field: Field, *, file: str | None, where: str):
+    """Convert and check one value.
+
+    Parameters
+    ----------
+    raw : object
+        The value as read (a CSV cell is a string; a TOML value has its TOML type).
+        Use :data:`MISSING` when the key or cell is absent or empty.
+    field : Field
+        What it must hold.
+    file : str or None
+        File name for the message.
+    where : str
+        Row/column or key for the message.
+
+    Returns
+    -------
+    value : object
+        The converted value, or ``field.default`` when absent and optional.
+
+    Raises
+    ------
+    InputError
+        Missing, wrong type, non-finite, or out of range.
+    """
+    if raw is MISSING or (isinstance(raw, str) and raw.strip() == ""):
+        if field.required:
+            raise InputError(f"missing; expected {field.expectation()}", file=file, where=where)
+        return field.default
+    kind = field.kind
+    if kind in ("float", "int"):
+        if isinstance(raw, bool):
+            raise _fail(field, raw, file, where)
+        if isinstance(raw, str):
+            text = raw.strip()
+            try:
+                value = float(text)
+            except ValueError:
+                raise _fail(field, text, file, where) from None
+        elif isinstance(raw, (int, float)):
+            value = float(raw)
+        else:
+            raise _fail(field, raw, file, where)
+        if not math.isfinite(value):
+            raise _fail(field, value, file, where, "not a finite number")
+        if kind == "int":
+            if value != int(value):
+                raise _fail(field, value, file, where)
+            value = int(value)
+        if field.low is not None and (value < field.low or (field.low_open and value == field.low)):
+            raise _fail(field, value, file, where)
+        if field.high is not None and (value > field.high or (field.high_open and value == field.high)):
+            raise _fail(field, value, file, where)
+        return value
+    if kind == "bool":
+        if isinstance(raw, bool):
+            return raw
+        if isinstance(raw, str) and raw.strip().lower() in ("true", "false"):
+            return raw.strip().lower() == "true"
+        raise _fail(field, raw, file, where)
+    if kind == "str_list":
+        if isinstance(raw, str):
+            items = [s.strip() for s in raw.replace(";", " ").split()]
+        elif isinstance(raw, list) and all(isinstance(s, str) for s in raw):
+            items = [s.strip() for s in raw]
+        else:
+            raise _fail(field, raw, file, where)
+        if not items or any(not s for s in items):
+            raise _fail(field, raw, file, where)
+        if field.choices:
+            for s in items:
+                if s not in field.choices:
+                    raise _fail(field, s, file, where)
+        return items
+    if not isinstance(raw, str):
+        raise _fail(field, raw, file, where)
+    value = raw.strip()
+    if kind == "choice" and value not in field.choices:
+        hint = difflib.get_close_matches(value, field.choices, n=1)
+        raise _fail(field, value, file, where, f"did you mean {hint[0]!r}?" if hint else "")
+    return value
+
+
+def check_known(names, known, *, file: str | None, where: str, what: str = "column") -> None:
+    """Reject unknown names (a unit typo is an error, never ignored).
+
+    Parameters
+    ----------
+    names : iterable of str
+        Names present in the input.
+    known : iterable of str
+        Names the schema defines.
+    file : str or None
+        File for the message.
+    where : str
+        Where the names were found (e.g. ``"header"`` or ``"table [site]"``).
+    what : str
+        ``"column"`` or ``"key"``.
+    """
+    known = list(known)
+    for name in names:
+        if name not in known:
+            hint = difflib.get_close_matches(name, known, n=1, cutoff=0.5)
+            tip = f"; did you mean {hint[0]!r}?" if hint else f"; expected one of: {', '.join(known)}"
+            raise InputError(f"unknown {what} {name!r}{tip}", file=file, where=where)

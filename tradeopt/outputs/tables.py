@@ -1,0 +1,85 @@
+"""Readable text tables for the terminal."""
+from __future__ import annotations
+
+from ..physics.budget import BUDGET_TERMS
+
+__all__ = ["format_budget", "budget_record"]
+
+_LABELS = {
+    "tx_power_dbw": "transmit power",
+    "tx_line_loss_db": "transmit line loss",
+    "tx_gain_dbi": "transmit antenna gain",
+    "eirp_dbw": "EIRP",
+    "free_space_loss_db": "free-space loss",
+    "gas_loss_db": "  gases (P.676)",
+    "cloud_loss_db": "  clouds (P.840)",
+    "rain_loss_db": "  rain (P.618)",
+    "scintillation_loss_db": "  scintillation (P.618)",
+    "atmospheric_loss_db": "atmospheric loss (P.618 total)",
+    "pointing_loss_db": "pointing loss (both ends)",
+    "polarization_loss_db": "polarization loss",
+    "other_losses_db": "other losses",
+    "rx_gain_dbi": "receive antenna gain",
+    "clear_sky_noise_temperature_k": "clear-sky system noise temp.",
+    "sky_noise_increase_k": "sky-noise increase",
+    "system_noise_temperature_k": "system noise temperature",
+    "gt_dbk": "G/T",
+    "boltzmann_dbw_per_k_hz": "Boltzmann constant",
+    "cn0_dbhz": "C/N0",
+    "rate_bps": "information rate",
+    "ebn0_db": "Eb/N0",
+    "ebn0_required_db": "required Eb/N0",
+    "implementation_loss_db": "implementation loss",
+    "margin_db": "MARGIN",
+    "required_margin_db": "required margin",
+    "max_rate_bps": "max rate at required margin",
+}
+
+
+def budget_record(result: dict) -> dict:
+    """The JSON-ready record of a budget (``tradeopt budget --json`` keys)."""
+    rec = {k: v for k, v in result.items() if k not in ("tx_beamwidth_deg", "rx_beamwidth_deg")}
+    rec["other_losses_db"] = result["other_losses_db"]
+    for k in ("tx_beamwidth_deg", "rx_beamwidth_deg"):
+        v = result.get(k)
+        rec[k] = None if v is None or v == float("inf") else v
+    return rec
+
+
+def _fmt(key: str, value: float) -> tuple[str, str]:
+    unit = BUDGET_TERMS.get(key, "")
+    if unit == "bit/s":
+        for scale, name in ((1e9, "Gbit/s"), (1e6, "Mbit/s"), (1e3, "kbit/s")):
+            if abs(value) >= scale:
+                return f"{value / scale:,.4g}", name
+        return f"{value:,.4g}", unit
+    return f"{value:,.2f}", unit
+
+
+def format_budget(result: dict, *, title: str = "") -> str:
+    """Term-by-term table with units, then the assumptions, one per line."""
+    lines = []
+    if title:
+        lines.append(title)
+    geo = [("direction", result["direction"], ""),
+           ("frequency", f"{result['frequency_hz'] / 1e9:.6g}", "GHz"),
+           ("elevation", f"{result['elevation_deg']:.2f}", "deg"),
+           ("slant range", f"{result['range_m'] / 1e3:,.1f}", "km")]
+    if result.get("availability_percent") is not None:
+        geo.append(("availability", f"{result['availability_percent']:.4g}", "% of an average year"))
+    width = 32
+    for label, value, unit in geo:
+        lines.append(f"  {label:<{width}} {value:>14}  {unit}")
+    lines.append("  " + "-" * (width + 24))
+    for key in BUDGET_TERMS:
+        value, unit = _fmt(key, result[key])
+        lines.append(f"  {_LABELS[key]:<{width}} {value:>14}  {unit}")
+        if key in ("eirp_dbw", "atmospheric_loss_db", "other_losses_db", "gt_dbk", "cn0_dbhz", "ebn0_db"):
+            lines.append("")
+    status = "closes" if result["margin_db"] >= result["required_margin_db"] else "DOES NOT CLOSE"
+    lines.append(f"  link {status}: margin {result['margin_db']:.2f} dB against {result['required_margin_db']:.2f}"
+                 " dB required")
+    if result.get("assumptions"):
+        lines.append("assumptions:")
+        lines.extend(f"  - {a}" for a in result["assumptions"])
+    return "\n".join(lines)

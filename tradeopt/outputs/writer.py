@@ -1,0 +1,85 @@
+"""Atomic results folders: build everything in a temporary folder, then rename it into place.
+
+A crash or a kill never leaves a half-written results folder: the previous
+folder stays intact until the new one is complete, and temporary folders left
+by a killed run are removed by the next one.
+"""
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from pathlib import Path
+
+__all__ = ["write_results", "TEMP_PREFIX"]
+
+#: Prefix of the temporary folders (hidden, beside the target).
+TEMP_PREFIX = ".tradeopt-partial-"
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # pragma: no cover
+        return True
+    return True
+
+
+def _clean_stale(parent: Path) -> None:
+    for entry in parent.glob(TEMP_PREFIX + "*"):
+        try:
+            pid = int(entry.name[len(TEMP_PREFIX):].split("-")[0])
+        except ValueError:
+            continue
+        if not _pid_alive(pid):
+            shutil.rmtree(entry, ignore_errors=True)
+
+
+def write_results(out_dir: str | os.PathLike, files: dict[str, str | bytes]) -> Path:
+    """Write ``files`` (relative name -> text or bytes) as the folder ``out_dir``, atomically.
+
+    The folder is replaced as a whole: files of an earlier run that are not in
+    ``files`` do not survive.
+
+    Parameters
+    ----------
+    out_dir : path
+        Target folder.
+    files : dict
+        File names (may contain sub-folders) and their contents.
+
+    Returns
+    -------
+    path : Path
+        The target folder.
+    """
+    target = Path(out_dir)
+    parent = target.parent
+    parent.mkdir(parents=True, exist_ok=True)
+    _clean_stale(parent)
+    tmp = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-", dir=parent))
+    try:
+        for name, content in sorted(files.items()):
+            dest = tmp / name
+            dest.parent.mkdir(parents=True, exist_ok=True)
+            if isinstance(content, bytes):
+                dest.write_bytes(content)
+            else:
+                dest.write_text(content, encoding="utf-8", newline="\n")
+            with open(dest, "rb") as fh:
+                os.fsync(fh.fileno())
+        os.chmod(tmp, 0o755)
+        if target.exists():
+            old = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-old-", dir=parent))
+            os.rmdir(old)
+            os.rename(target, old)
+            os.rename(tmp, target)
+            shutil.rmtree(old, ignore_errors=True)
+        else:
+            os.rename(tmp, target)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return target

@@ -1,0 +1,137 @@
+"""Assemble a link budget from resolved inputs by calling the physics modules.
+
+Used by ``tradeopt budget`` for one link and by the optimizer to re-derive the
+full budget of the designs it reports, so that both give the same numbers.
+No physics is defined here: only which model feeds which term.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..physics import antenna, budget, noise, path, propagation
+from ..physics.validity import check_range
+
+__all__ = ["end_gain_and_pointing", "compute_link", "sky_noise_increase_at_receiver_k"]
+
+
+def end_gain_and_pointing(*, frequency_hz, gain_dbi=None, diameter_m=None, efficiency=None,
+                          beamwidth_deg=None, pointing_error_deg=0.0):
+    """Gain, pointing loss and beamwidth of one antenna, by value or from its aperture.
+
+    Parameters
+    ----------
+    frequency_hz : array_like
+        [Hz].
+    gain_dbi : array_like, optional
+        Fixed gain [dBi]; otherwise ``diameter_m`` and ``efficiency`` give the
+        parabolic gain.
+    diameter_m, efficiency : array_like, optional
+        Aperture [m] and efficiency [-].
+    beamwidth_deg : array_like, optional
+        Half-power beamwidth [deg]; default 70 lambda / D for an aperture.
+    pointing_error_deg : array_like, optional
+        [deg].
+
+    Returns
+    -------
+    gain_dbi, pointing_loss_db, beamwidth_deg : ndarray
+        Beamwidth is ``inf`` (no pointing loss) for a fixed-gain antenna given no beamwidth.
+    """
+    if gain_dbi is None:
+        gain_dbi = antenna.parabolic_gain_dbi(diameter_m, frequency_hz, efficiency)
+        if beamwidth_deg is None:
+            beamwidth_deg = antenna.half_power_beamwidth_deg(diameter_m, frequency_hz)
+    if beamwidth_deg is None:
+        beamwidth_deg = np.inf
+    loss = antenna.pointing_loss_db(pointing_error_deg, beamwidth_deg)
+    return gain_dbi, loss, beamwidth_deg
+
+
+def sky_noise_increase_at_receiver_k(gas_db, cloud_db, rain_db, feed_loss_db=0.0):
+    """Rise of the system noise temperature over clear sky, referred to the LNA input [K].
+
+    The clear-sky antenna temperature is taken to include gaseous emission, so
+    the increase counts cloud and rain: Delta T = [T_sky(A_G + A_C + A_R) -
+    T_sky(A_G)] / L_feed, with T_mr = 275 K.
+
+    References
+    ----------
+    Recommendation ITU-R P.618-14 section 3, eq. (69); Friis cascade for the feed loss.
+    """
+    gas = np.asarray(gas_db, dtype=float)
+    rise = noise.sky_noise_increase_k(gas + np.asarray(cloud_db) + np.asarray(rain_db), gas)
+    return np.asarray(rise) / np.power(10.0, np.asarray(feed_loss_db, dtype=float) / 10.0)
+
+
+def compute_link(spec) -> dict:
+    """Full budget of one resolved link (:class:`tradeopt.inputs.linkfile.LinkSpec`).
+
+    Returns
+    -------
+    result : dict
+        Geometry (``frequency_hz``, ``elevation_deg``, ``availability_percent``,
+        ``range_m``), every budget term of :data:`tradeopt.physics.budget.BUDGET_TERMS`
+        as a float, ``pointing_beyond_law`` and ``assumptions`` (list of str).
+    """
+    notes = list(spec.assumptions)
+    f_hz = spec.frequency_hz
+    if spec.range_m is not None:
+        range_m = spec.range_m
+    else:
+        range_m = float(path.slant_range_m(spec.altitude_m, spec.elevation_deg))
+    fsl = float(path.free_space_loss_db(range_m, f_hz))
+
+    ends = {}
+    for name, end in (("tx", spec.tx), ("rx", spec.rx)):
+        g, loss, bw = end_gain_and_pointing(frequency_hz=f_hz, gain_dbi=end.gain_dbi, diameter_m=end.diameter_m,
+                                            efficiency=end.efficiency, beamwidth_deg=end.beamwidth_deg,
+                                            pointing_error_deg=end.pointing_error_deg)
+        ends[name] = (float(g), float(loss), float(bw))
+        if end.pointing_error_deg > antenna.POINTING_LAW_LIMIT * float(bw):
+            notes.append(f"{'transmit' if name == 'tx' else 'receive'} pointing error {end.pointing_error_deg:g} deg "
+                         f"exceeds half the {float(bw):.3g} deg beamwidth: the 12 (theta/theta_3dB)^2 law is "
+                         "outside its stated range and understates the loss")
+
+    atm = dict(gas_db=0.0, cloud_db=0.0, rain_db=0.0, scintillation_db=0.0)
+    sky_rise = 0.0
+    if spec.site is not None:
+        p = 100.0 - spec.availability_percent
+        ground = spec.rx if spec.direction == "downlink" else spec.tx
+        terms = propagation.site_attenuation(
+            latitude_deg=spec.site["latitude_deg"], longitude_deg=spec.site["longitude_deg"],
+            altitude_m=spec.site["altitude_m"], frequency_hz=f_hz, percent_of_year=p,
+            elevation_deg=spec.elevation_deg, antenna_diameter_m=ground.diameter_m,
+            antenna_efficiency=ground.efficiency, polarization_tilt_deg=spec.polarization_tilt_deg)
+        atm = {k: float(v[0]) for k, v in terms.items() if k != "total_db"}
+        notes.extend(propagation.validity_notes(f_hz))
+        if spec.direction == "downlink":
+            sky_rise = float(sky_noise_increase_at_receiver_k(atm["gas_db"], atm["cloud_db"], atm["rain_db"],
+                                                              spec.rx_feed_loss_db))
+            notes.append("sky-noise increase over clear sky from cloud and rain, ITU-R P.618-14 section 3, "
+                         "T_mr = 275 K")
+        else:
+            notes.append("uplink: the spacecraft receiver sees the Earth; no sky-noise increase applied")
+    else:
+        check_range("elevation_deg", spec.elevation_deg, 0.0, 90.0, "elevation above the horizon", low_open=True)
+
+    terms = budget.link_budget(
+        tx_power_w=spec.tx_power_w, tx_line_loss_db=spec.tx_line_loss_db, tx_gain_dbi=ends["tx"][0],
+        tx_pointing_loss_db=ends["tx"][1], rx_pointing_loss_db=ends["rx"][1], free_space_loss_db=fsl,
+        gas_loss_db=atm["gas_db"], cloud_loss_db=atm["cloud_db"], rain_loss_db=atm["rain_db"],
+        scintillation_loss_db=atm["scintillation_db"], polarization_loss_db=spec.polarization_loss_db,
+        other_losses_db=spec.other_losses_db, rx_gain_dbi=ends["rx"][0],
+        clear_sky_noise_temperature_k=spec.rx_clear_sky_noise_temperature_k, sky_noise_increase_k=sky_rise,
+        rate_bps=spec.rate_bps, ebn0_required_db=spec.ebn0_required_db,
+        implementation_loss_db=spec.implementation_loss_db, required_margin_db=spec.required_margin_db)
+    out = {
+        "direction": spec.direction,
+        "frequency_hz": float(f_hz),
+        "elevation_deg": float(spec.elevation_deg),
+        "availability_percent": None if spec.site is None else float(spec.availability_percent),
+        "range_m": float(range_m),
+    }
+    out.update({k: float(v) for k, v in terms.items()})
+    out["tx_beamwidth_deg"] = ends["tx"][2]
+    out["rx_beamwidth_deg"] = ends["rx"][2]
+    out["assumptions"] = notes
+    return out
