@@ -140,3 +140,18 @@ def test_versions_recorded():
     v = prop.recommendation_versions()
     assert v["P.618"] == "P.618-13" and v["P.676"] == "P.676-12" and v["P.837"] == "P.837-7"
     assert prop.itur_version() == "0.4.0"
+
+
+def test_aperture_array_matches_scalar_calls():
+    # Scintillation with an array of apertures (one itur call) equals one call per aperture
+    # (ITU-R P.618-13 section 2.4.1 is element-wise in D and eta).
+    site = dict(latitude_deg=48.6, longitude_deg=9.95, altitude_m=520.0, frequency_hz=26.25e9,
+                percent_of_year=0.5)
+    d = np.array([2.4, 5.4, 13.0])
+    eta = np.array([0.55, 0.6, 0.5])
+    many = prop.site_attenuation(**site, elevation_deg=10.0, antenna_diameter_m=d, antenna_efficiency=eta)
+    for i in range(3):
+        one = prop.site_attenuation(**site, elevation_deg=10.0, antenna_diameter_m=d[i], antenna_efficiency=eta[i])
+        for k in one:
+            assert many[k][i] == pytest.approx(one[k][0], rel=1e-12)
+    assert many["scintillation_db"][0] > many["scintillation_db"][2]  # aperture averaging

@@ -169,7 +169,9 @@ def polarization_loss_db(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_d
     u2 = np.where(np.isinf(r2), 0.0, 1.0 / np.where(np.isinf(r2), 1.0, r2))
     num = 4.0 * u1 * u2 + (u1**2 - 1.0) * (u2**2 - 1.0) * np.cos(2.0 * psi)
     den = 2.0 * (u1**2 + 1.0) * (u2**2 + 1.0)
-    rho = 0.5 + num / den
+    # rho is in [0, 1] exactly; for orthogonal states (crossed linear, opposite-hand
+    # matched ellipses) rounding can leave it a few ulp below 0, which would give NaN.
+    rho = np.clip(0.5 + num / den, 0.0, 1.0)
     with np.errstate(divide="ignore"):
         loss = -10.0 * np.log10(rho)
     return restore_kind(loss, _pick_like(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_deg))

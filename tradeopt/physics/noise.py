@@ -91,7 +91,8 @@ def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *, mean_radia
     """
     a = sky_noise_temperature_k(attenuation_db, mean_radiating_temperature_k=mean_radiating_temperature_k)
     b = sky_noise_temperature_k(clear_sky_attenuation_db, mean_radiating_temperature_k=mean_radiating_temperature_k)
-    return restore_kind(np.asarray(a) - np.asarray(b), _pick_like(attenuation_db, clear_sky_attenuation_db))
+    return restore_kind(np.asarray(a) - np.asarray(b),
+                        _pick_like(attenuation_db, clear_sky_attenuation_db, mean_radiating_temperature_k))
 
 
 def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperature_k, *,
@@ -133,7 +134,8 @@ def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperat
          + np.asarray(physical_temperature_k, dtype=float) * (1.0 - 1.0 / loss)
          + np.asarray(lna_temperature_k, dtype=float)
          + np.asarray(following_temperature_k, dtype=float) / gain)
-    return restore_kind(t, _pick_like(antenna_temperature_k, feed_loss_db, lna_temperature_k))
+    return restore_kind(t, _pick_like(antenna_temperature_k, feed_loss_db, lna_temperature_k,
+                                      physical_temperature_k, following_temperature_k, lna_gain_db))
 
 
 def noise_figure_to_temperature_k(noise_figure_db, *, reference_temperature_k=REFERENCE_TEMPERATURE_K):
@@ -144,7 +146,7 @@ def noise_figure_to_temperature_k(noise_figure_db, *, reference_temperature_k=RE
     IEEE Std 161 noise-figure definition, T0 = 290 K.
     """
     t = reference_temperature_k * (np.power(10.0, np.asarray(noise_figure_db, dtype=float) / 10.0) - 1.0)
-    return restore_kind(t, noise_figure_db)
+    return restore_kind(t, _pick_like(noise_figure_db, reference_temperature_k))
 
 
 def gt_dbk(gain_dbi, system_noise_temperature_k):

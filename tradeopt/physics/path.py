@@ -28,7 +28,7 @@ def free_space_loss_db(range_m, frequency_hz):
 
     Returns
     -------
-    loss_db : same kind as ``range_m``
+    loss_db : same kind as the widest input
         Free-space loss [dB].
 
     References
@@ -88,7 +88,7 @@ def elevation_from_range_deg(altitude_m, range_m, *, earth_radius_m=EARTH_RADIUS
 
     Returns
     -------
-    elevation_deg : same kind as ``range_m``
+    elevation_deg : same kind as the widest input
         Elevation [deg].
 
     References
@@ -99,4 +99,5 @@ def elevation_from_range_deg(altitude_m, range_m, *, earth_radius_m=EARTH_RADIUS
     h = np.asarray(altitude_m, dtype=float)
     d = np.asarray(range_m, dtype=float)
     s = ((r + h) ** 2 - r**2 - d**2) / (2.0 * r * d)
-    return restore_kind(np.degrees(np.arcsin(np.clip(s, -1.0, 1.0))), range_m)
+    like = range_m if np.ndim(range_m) >= np.ndim(altitude_m) else altitude_m
+    return restore_kind(np.degrees(np.arcsin(np.clip(s, -1.0, 1.0))), like)

@@ -10,8 +10,9 @@ This is the only module of tradeopt that imports :mod:`itur`. It
   values, so percentages and frequencies are looped as scalars; the surface
   temperature goes to the gas model in kelvin (as a Quantity); the surface
   humidity ``H`` is never passed (a units bug in its scintillation path);
-  ``hs`` is in km; ``import itur`` changes numpy's error state, which is
-  restored here,
+  ``hs`` is in km; an array of antenna diameters or efficiencies in its
+  scintillation function gives an outer product, so apertures are looped as
+  scalars; ``import itur`` changes numpy's error state, which is restored here,
 * evaluates a grid without calling itur once per point: in the approximate
   mode of ITU-R P.676 and in ITU-R P.840 the gaseous and cloud attenuations
   are a zenith quantity divided by sin(elevation), so they are computed once
@@ -200,9 +201,12 @@ def site_climate(*, latitude_deg: float, longitude_deg: float) -> dict[str, floa
 
 def site_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: float,
                      frequency_hz: float, percent_of_year: float, elevation_deg,
-                     antenna_diameter_m: float, antenna_efficiency: float,
+                     antenna_diameter_m, antenna_efficiency,
                      polarization_tilt_deg: float = 45.0) -> dict[str, np.ndarray]:
     """Slant-path attenuation terms for one site, frequency and percentage, many elevations.
+
+    ``elevation_deg``, ``antenna_diameter_m`` and ``antenna_efficiency`` broadcast
+    together (the aperture only enters the scintillation term).
 
     Parameters
     ----------
@@ -216,9 +220,9 @@ def site_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: f
         Percentage of an average year the attenuation is exceeded, p = 100 - availability [%].
     elevation_deg : array_like
         Elevation angles [deg], 5-90.
-    antenna_diameter_m : float
+    antenna_diameter_m : array_like
         Earth-station antenna diameter [m] (scintillation aperture averaging).
-    antenna_efficiency : float
+    antenna_efficiency : array_like
         Earth-station antenna efficiency [-].
     polarization_tilt_deg : float, optional
         Polarization tilt relative to horizontal [deg]; 45 for circular.
@@ -234,10 +238,12 @@ def site_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: f
     Recommendation ITU-R P.618-13 sections 2.2.1.1, 2.4.1 and 2.5; P.676-12
     Annex 2; P.840-7.
     """
-    el = np.atleast_1d(np.asarray(elevation_deg, dtype=float))
+    el, dia, eff = (np.atleast_1d(a).astype(float) for a in np.broadcast_arrays(
+        np.asarray(elevation_deg, dtype=float), np.asarray(antenna_diameter_m, dtype=float),
+        np.asarray(antenna_efficiency, dtype=float)))
     check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
                  frequency_hz=frequency_hz, elevation_deg=el, percent_of_year=percent_of_year,
-                 antenna_diameter_m=antenna_diameter_m, antenna_efficiency=antenna_efficiency)
+                 antenna_diameter_m=dia, antenna_efficiency=eff)
     itur = _load()
     import astropy.units as u  # noqa: PLC0415  (installed with itur)
 
@@ -258,10 +264,20 @@ def site_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: f
         gas_ref = float(_value(models.itu676.gaseous_attenuation_slant_path(
             f_ghz, el_ref, rho, p_hpa, t_k * u.K, v_t, hs_km, "approx")))
         cloud_ref = float(_value(models.itu840.cloud_attenuation(lat, lon, el_ref, f_ghz, p_cg)))
+        el_unique, el_inverse = np.unique(el, return_inverse=True)
         rain = _value(models.itu618.rain_attenuation(
-            lat, lon, f_ghz, el, hs_km, p, None, float(polarization_tilt_deg), None)).reshape(el.shape)
-        scint = _value(models.itu618.scintillation_attenuation(
-            lat, lon, f_ghz, el, p, float(antenna_diameter_m), float(antenna_efficiency))).reshape(el.shape)
+            lat, lon, f_ghz, el_unique, hs_km, p, None, float(polarization_tilt_deg), None)
+        ).reshape(el_unique.shape)[el_inverse.reshape(el.shape)]
+        # itur 0.4.0 takes an outer product when D or eta is an array (a further trap), so the
+        # aperture is looped as a scalar, with all elevations of that aperture in one call.
+        scint = np.empty(el.shape)
+        apertures, ap_inverse = np.unique(np.stack([dia.reshape(-1), eff.reshape(-1)], axis=1), axis=0,
+                                          return_inverse=True)
+        ap_inverse = ap_inverse.reshape(el.shape)
+        for j, (d_j, e_j) in enumerate(apertures):
+            sel = ap_inverse == j
+            scint[sel] = _value(models.itu618.scintillation_attenuation(
+                lat, lon, f_ghz, el[sel], p, float(d_j), float(e_j))).reshape(-1)
     scale = np.sin(np.radians(el_ref)) / np.sin(np.radians(el))
     gas = gas_ref * scale
     cloud = cloud_ref * scale
@@ -292,8 +308,8 @@ def slant_path_attenuation(*, latitude_deg: float, longitude_deg: float, altitud
 
     ``frequency_hz``, ``elevation_deg``, ``percent_of_year``,
     ``antenna_diameter_m`` and ``antenna_efficiency`` broadcast together.
-    itur is called once per distinct (frequency, percentage, diameter,
-    efficiency) with every elevation at once, never once per point.
+    itur is called once per distinct (frequency, percentage) with every
+    elevation and aperture at once, never once per point.
 
     Parameters
     ----------
@@ -329,15 +345,15 @@ def slant_path_attenuation(*, latitude_deg: float, longitude_deg: float, altitud
     check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
                  frequency_hz=f, elevation_deg=el, percent_of_year=p, antenna_diameter_m=d,
                  antenna_efficiency=eta)
-    keys = np.stack([f, p, d, eta], axis=1)
+    keys = np.stack([f, p], axis=1)
     unique, inverse = np.unique(keys, axis=0, return_inverse=True)
     inverse = inverse.reshape(-1)
     out = {k: np.empty(f.shape) for k in ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")}
-    for i, (fi, pi, di, ei) in enumerate(unique):
+    for i, (fi, pi) in enumerate(unique):
         sel = inverse == i
         terms = site_attenuation(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
                                  frequency_hz=fi, percent_of_year=pi, elevation_deg=el[sel],
-                                 antenna_diameter_m=di, antenna_efficiency=ei,
+                                 antenna_diameter_m=d[sel], antenna_efficiency=eta[sel],
                                  polarization_tilt_deg=polarization_tilt_deg)
         for k, v in terms.items():
             out[k][sel] = v
