@@ -94,20 +94,20 @@ def _cmd_catalog(args) -> int:
 
 
 def _cmd_optimize(args) -> int:
-    from .trade.run import run_optimize
+    from .commands import run_optimize
 
     return run_optimize(scenario_path=args.scenario, objective=args.objective, out_dir=args.out,
                         as_json=args.json)
 
 
 def _cmd_demand(args) -> int:
-    from .trade.run import run_demand
+    from .commands import run_demand
 
     return run_demand(scenario_path=args.scenario, as_json=args.json)
 
 
 def _cmd_contacts(args) -> int:
-    from .trade.run import run_contacts
+    from .commands import run_contacts
 
     return run_contacts(scenario_path=args.scenario, days=args.days, as_json=args.json)
 
@@ -134,6 +134,11 @@ def main(argv: list[str] | None = None) -> int:
     except ModelRangeError as exc:
         print(f"tradeopt {args.command}: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except BrokenPipeError:  # output piped into a reader that stopped early (e.g. head)
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
 
 
 if __name__ == "__main__":  # pragma: no cover

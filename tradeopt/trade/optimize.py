@@ -1,0 +1,246 @@
+"""The trade: search every band's design space, size continuously, compare bands.
+
+:func:`optimize` returns a :class:`TradeResult` holding everything the results
+folder shows; it writes nothing. Physics comes from :mod:`tradeopt.physics`
+through :mod:`tradeopt.trade.space`; this module only combines.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..physics import path, propagation
+from .evaluate import Limits, SearchResult, search
+from .linkcalc import compute_link
+from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_m
+from .space import BandSpace, build_band_space, site_terms_for_apertures
+
+__all__ = ["TradeResult", "optimize", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
+           "misses_text",
+           "AVAILABILITY_GRID_PERCENT", "ELEVATION_GRID_DEG"]
+
+#: Availabilities [%] of the attenuation-vs-availability evidence.
+AVAILABILITY_GRID_PERCENT = np.array([95.0, 98.0, 99.0, 99.5, 99.8, 99.9, 99.95, 99.98, 99.99, 99.995, 99.999])
+#: Elevations [deg] of the margin-vs-elevation evidence.
+ELEVATION_GRID_DEG = np.array([5.0, 7.5, 10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.0, 50.0, 60.0, 70.0, 80.0, 90.0])
+
+
+@dataclass
+class TradeResult:
+    """Everything one optimisation found (no files)."""
+
+    scenario: object
+    objective: str
+    limits: Limits
+    spaces: list
+    search: SearchResult
+    best_budgets: dict = field(default_factory=dict)  # site id -> budget dict of the overall best
+    band_budgets: dict = field(default_factory=dict)  # band id -> budget dict at its limiting site
+    curves: dict = field(default_factory=dict)  # band id -> dish curve dict
+    min_dish: dict = field(default_factory=dict)  # band id -> (configs list, diameters array)
+    least_power: dict = field(default_factory=dict)  # band id -> array (G, A, C)
+    attenuation: list = field(default_factory=list)  # rows for attenuation vs availability
+    elevation_margin: list = field(default_factory=list)  # rows for margin vs elevation
+    notes: list = field(default_factory=list)
+
+    @property
+    def feasible(self) -> bool:
+        """Whether any design keeps every constraint."""
+        return self.search.best is not None
+
+    def space(self, band_id: str) -> BandSpace:
+        """The design space of a band."""
+        return next(s for s in self.spaces if s.band_id == band_id)
+
+
+def design_ids(space: BandSpace, g: int, a: int, m: int, c: int) -> dict:
+    """Catalog IDs of a design."""
+    return {"band_id": space.band_id,
+            "ground_antenna_id": str(space.ground["ground_antenna_id"].iloc[g]),
+            "spacecraft_antenna_id": str(space.craft_antennas["spacecraft_antenna_id"].iloc[a]),
+            "amplifier_id": str(space.amplifiers["amplifier_id"].iloc[m]),
+            "modcod_id": str(space.modcods["modcod_id"].iloc[c])}
+
+
+def reason_text(space: BandSpace, rec: dict, limits: Limits) -> str:
+    """One-line reason of a design (``feasible`` or the first broken constraint and by how much)."""
+    code = rec["reason"]
+    amount = rec["shortfall"]
+    if code == 0:
+        return "feasible"
+    if code == 1:
+        return (f"occupied bandwidth {rec['bandwidth_hz'] / 1e6:.4g} MHz exceeds the {space.available_bandwidth_hz / 1e6:.4g}"
+                f" MHz available in {space.band_id} by {amount / 1e6:.4g} MHz")
+    if code == 2:
+        site = space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])]
+        return f"margin {rec['margin_db']:.2f} dB is {amount:.2f} dB short of the {limits.required_margin_db:g} dB required at {site}"
+    if code == 3:
+        return (f"power-flux density exceeds the Radio Regulations Article 21 limit by {amount:.2f} dB "
+                f"(worst at {space.pfd_worst_angle_deg:g} deg arrival)")
+    if code == 4:
+        return f"comm mass {rec['mass_kg']:.2f} kg exceeds the {limits.max_comm_mass_kg:g} kg limit by {amount:.2f} kg"
+    return f"DC power {rec['dc_power_w']:.1f} W exceeds the {limits.max_dc_power_w:g} W limit by {amount:.1f} W"
+
+
+def misses_text(space: BandSpace, rec: dict, limits: Limits) -> str:
+    """Every constraint a design breaks, and by how much (``feasible`` when none)."""
+    parts = []
+    over_bw = rec["bandwidth_hz"] - space.available_bandwidth_hz
+    if over_bw > 0:
+        parts.append(f"bandwidth over by {over_bw / 1e6:.4g} MHz")
+    short = limits.required_margin_db - rec["margin_db"]
+    if short > 1e-12:
+        site = space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])]
+        parts.append(f"margin short by {short:.2f} dB at {site}")
+    if rec["pfd_excess_db"] > 0:
+        parts.append(f"pfd over the limit by {rec['pfd_excess_db']:.2f} dB")
+    if rec["mass_kg"] > limits.max_comm_mass_kg:
+        parts.append(f"mass over by {rec['mass_kg'] - limits.max_comm_mass_kg:.2f} kg")
+    if rec["dc_power_w"] > limits.max_dc_power_w:
+        parts.append(f"DC power over by {rec['dc_power_w'] - limits.max_dc_power_w:.1f} W")
+    return "; ".join(parts) if parts else "feasible"
+
+
+def design_link_dict(scenario, space: BandSpace, rec: dict, site) -> dict:
+    """The link file (as a dict) of a design at a site's minimum elevation, by catalog IDs.
+
+    ``tradeopt budget`` on this file gives the same numbers as the optimizer.
+    """
+    ids = design_ids(space, rec["g"], rec["a"], rec["m"], rec["c"])
+    link = {"direction": scenario.direction, "band": space.band_id,
+            "availability_percent": scenario.availability_percent, "elevation_deg": site.min_elevation_deg,
+            "polarization_tilt_deg": scenario.polarization_tilt_deg}
+    if scenario.range_m is not None:
+        link["range_m"] = scenario.range_m
+    else:
+        link["altitude_m"] = scenario.altitude_m
+    from ..inputs.catalog import default_catalog_dir  # noqa: PLC0415
+
+    if scenario.catalog.directory.resolve() != default_catalog_dir().resolve():
+        link["catalogs"] = str(scenario.catalog.directory.resolve())
+    return {
+        "link": link,
+        "site": {"name": site.name, "latitude_deg": site.latitude_deg, "longitude_deg": site.longitude_deg,
+                 "altitude_m": site.altitude_m},
+        "transmitter": {"amplifier": ids["amplifier_id"], "antenna": ids["spacecraft_antenna_id"]},
+        "receiver": {"antenna": ids["ground_antenna_id"]},
+        "losses": {"polarization_db": scenario.polarization_loss_db, "other_db": scenario.other_losses_db},
+        "waveform": {"rate_bps": scenario.rate_bps, "modcod": ids["modcod_id"],
+                     "implementation_loss_db": scenario.implementation_loss_db,
+                     "required_margin_db": scenario.required_margin_db},
+    }
+
+
+def budget_of_design(scenario, space: BandSpace, rec: dict, site) -> dict:
+    """Full term-by-term budget of a design at a site, through the same path as ``tradeopt budget``."""
+    from ..inputs.linkfile import link_spec_from_dict  # noqa: PLC0415
+
+    spec = link_spec_from_dict(design_link_dict(scenario, space, rec, site), file=scenario.file,
+                               catalog=scenario.catalog)
+    return compute_link(spec)
+
+
+def _evidence(scenario, res: TradeResult) -> None:
+    """Attenuation vs availability per site and band; margin vs elevation per band's best design."""
+    for space in res.spaces:
+        best = res.search.best_by_band.get(space.band_id)
+        if best is not None:
+            g = best["g"]
+        else:
+            g = int(np.argmax(space.ground["diameter_m"].to_numpy(float))) if len(space.ground) else None
+        if g is None:
+            continue
+        row = space.ground.iloc[g]
+        for site in scenario.sites:
+            p = 100.0 - AVAILABILITY_GRID_PERCENT
+            t = propagation.slant_path_attenuation(
+                latitude_deg=site.latitude_deg, longitude_deg=site.longitude_deg, altitude_m=site.altitude_m,
+                frequency_hz=space.frequency_hz, elevation_deg=site.min_elevation_deg, percent_of_year=p,
+                antenna_diameter_m=float(row["diameter_m"]), antenna_efficiency=float(row["efficiency"]),
+                polarization_tilt_deg=scenario.polarization_tilt_deg)
+            for i, av in enumerate(AVAILABILITY_GRID_PERCENT):
+                res.attenuation.append({"site_id": site.id, "band_id": space.band_id,
+                                        "ground_antenna_id": str(row["ground_antenna_id"]),
+                                        "elevation_deg": site.min_elevation_deg, "availability_percent": float(av),
+                                        "gas_db": float(t["gas_db"][i]), "cloud_db": float(t["cloud_db"][i]),
+                                        "rain_db": float(t["rain_db"][i]),
+                                        "scintillation_db": float(t["scintillation_db"][i]),
+                                        "total_db": float(t["total_db"][i])})
+        if best is None:
+            continue
+        rest = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c[best["c"]] + space.const_db
+        t_clear = float(space.site_terms.system_noise_temperature_k[g, 0] - space.site_terms.sky_noise_increase_k[g, 0])
+        gain_minus_point = space.x_g[g] - (
+            -space.site_terms.free_space_loss_db[space.limiting_site_g[g]]
+            - space.site_terms.atmospheric_db[g, space.limiting_site_g[g]]
+            - 10.0 * np.log10(space.site_terms.system_noise_temperature_k[g, space.limiting_site_g[g]]))
+        for site in [s for s in scenario.sites if s.required]:
+            el = ELEVATION_GRID_DEG[ELEVATION_GRID_DEG >= site.min_elevation_deg]
+            rng = (np.full(el.shape, float(scenario.range_m)) if scenario.range_m is not None
+                   else np.asarray(path.slant_range_m(scenario.altitude_m, el)))
+            st = site_terms_for_apertures(scenario, [site] * len(el), space.frequency_hz,
+                                          diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
+                                          feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
+                                          elevation_deg=el, range_m=rng)
+            margin = (gain_minus_point - st.free_space_loss_db - st.atmospheric_db[0]
+                      - 10.0 * np.log10(st.system_noise_temperature_k[0]) + rest)
+            for e, mgn in zip(el, margin):
+                res.elevation_margin.append({"band_id": space.band_id, "site_id": site.id, "elevation_deg": float(e),
+                                             "margin_db": float(mgn)})
+
+
+def optimize(scenario, *, objective: str | None = None, max_block_designs: int = 1 << 20,
+             keep_designs: bool = True, sizing: bool = True) -> TradeResult:
+    """Run the whole trade for a scenario.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    objective : {"mass", "power"}, optional
+        Overrides the scenario's objective.
+    max_block_designs : int
+        Designs held in memory at once.
+    keep_designs : bool
+        Keep every design for ``designs.csv``.
+    sizing : bool
+        Compute the continuous sizing, dish curves and evidence.
+
+    Returns
+    -------
+    TradeResult
+    """
+    objective = objective or scenario.objective
+    limits = Limits(required_margin_db=scenario.required_margin_db, max_comm_mass_kg=scenario.max_comm_mass_kg,
+                    max_dc_power_w=scenario.max_dc_power_w)
+    spaces = [build_band_space(scenario, b) for b in scenario.band_ids]
+    found = search(spaces, limits, objective=objective, max_block_designs=max_block_designs,
+                   keep_designs=keep_designs)
+    res = TradeResult(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found)
+    for s in spaces:
+        res.notes.extend(s.notes)
+    required = [s for s in scenario.sites if s.required]
+    best = found.best
+    if best is not None:
+        space = res.space(best["band_id"])
+        for site in required:
+            res.best_budgets[site.id] = budget_of_design(scenario, space, best, site)
+    for space in spaces:
+        rec = found.best_by_band.get(space.band_id)
+        if rec is not None:
+            site = required[int(space.limiting_site_g[rec["g"]])]
+            res.band_budgets[space.band_id] = budget_of_design(scenario, space, rec, site)
+    if sizing:
+        for space in spaces:
+            if len(space.ground) == 0:
+                continue
+            model = dish_model(scenario, space)
+            res.curves[space.band_id] = dish_curve(model, space, limits, objective)
+            rest = (space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :]
+                    + space.const_db).reshape(-1)
+            res.min_dish[space.band_id] = (model.diameters_m.max(), min_dish_diameter_m(model, limits.required_margin_db,
+                                                                                        rest))
+            res.least_power[space.band_id] = least_rf_power_w(space, limits.required_margin_db)
+        _evidence(scenario, res)
+    return res
+

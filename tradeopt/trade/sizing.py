@@ -1,0 +1,155 @@
+"""Continuous sizing: the smallest ground dish for each spacecraft configuration, the least RF
+power for each dish, and the dish-size curve.
+
+The ground terminal of a continuous diameter takes the band's catalog values
+(efficiency, feed loss, LNA and antenna noise temperatures, pointing error)
+interpolated linearly in diameter and held constant beyond the catalog's
+smallest and largest dish. Propagation (scintillation depends on the aperture)
+is computed on the diameter grid and interpolated between grid points.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy.optimize import brentq
+
+from ..physics import noise
+from .linkcalc import end_gain_and_pointing
+from .space import site_terms_for_apertures
+
+__all__ = ["KNEE_FRACTION", "DishModel", "dish_model", "min_dish_diameter_m", "least_rf_power_w", "dish_curve"]
+
+#: A larger dish "stops paying" once the optimum is within this fraction of its best value on the grid.
+KNEE_FRACTION = 0.02
+
+
+class DishModel:
+    """X(D): the ground-side part of the margin (gain - pointing + worst required site) vs diameter."""
+
+    def __init__(self, scenario, space, diameters_m: np.ndarray):
+        g = space.ground.sort_values("diameter_m")
+        self.space = space
+        self.diameters_m = np.asarray(diameters_m, dtype=float)
+        cat_d = g["diameter_m"].to_numpy(float)
+        interp = lambda col: np.interp(self.diameters_m, cat_d, g[col].to_numpy(float))  # noqa: E731
+        self.efficiency = interp("efficiency")
+        self.feed_loss_db = interp("feed_loss_db")
+        self.pointing_error_deg = interp("pointing_error_deg")
+        t_clear = np.asarray(noise.system_noise_temperature_k(interp("antenna_noise_temperature_k"),
+                                                              self.feed_loss_db, interp("lna_noise_temperature_k")))
+        required = [s for s in scenario.sites if s.required]
+        st = site_terms_for_apertures(scenario, required, space.frequency_hz, diameter_m=self.diameters_m,
+                                      efficiency=self.efficiency, feed_loss_db=self.feed_loss_db,
+                                      clear_sky_temperature_k=t_clear)
+        gain, point, _ = end_gain_and_pointing(frequency_hz=space.frequency_hz, diameter_m=self.diameters_m,
+                                               efficiency=self.efficiency,
+                                               pointing_error_deg=self.pointing_error_deg)
+        per_site = -st.free_space_loss_db[None, :] - st.atmospheric_db - 10.0 * np.log10(st.system_noise_temperature_k)
+        self.x_d = np.asarray(gain) - np.asarray(point) + per_site.min(axis=1)
+
+    def x_at(self, diameter_m):
+        """X at any diameter inside the grid (linear interpolation of the grid values) [dB]."""
+        return np.interp(diameter_m, self.diameters_m, self.x_d)
+
+
+def dish_model(scenario, space) -> DishModel:
+    """A :class:`DishModel` on the scenario's diameter grid."""
+    d_max = scenario.dish_curve_max_diameter_m
+    step = scenario.dish_curve_step_m
+    grid = np.round(np.arange(step, d_max + step / 2, step), 6)
+    grid = grid[grid >= 0.5] if (grid >= 0.5).any() else grid
+    return DishModel(scenario, space, grid)
+
+
+def min_dish_diameter_m(model: DishModel, required_margin_db: float, rest_db: np.ndarray) -> np.ndarray:
+    """Smallest diameter at which margin = X(D) + rest >= required, by bracketing then Brent's method.
+
+    Parameters
+    ----------
+    model : DishModel
+    required_margin_db : float
+    rest_db : ndarray
+        The non-ground part of the margin of each configuration (Y + Z + W + const) [dB].
+
+    Returns
+    -------
+    diameter_m : ndarray
+        NaN where no diameter on the grid closes (reported as such, never written as NaN).
+    """
+    rest = np.atleast_1d(np.asarray(rest_db, dtype=float))
+    need = required_margin_db - rest  # X(D) >= need
+    ok = model.x_d[None, :] >= need[:, None]
+    out = np.full(rest.shape, np.nan)
+    first = np.argmax(ok, axis=1)
+    for i in np.flatnonzero(ok.any(axis=1)):
+        j = first[i]
+        if j == 0:
+            out[i] = model.diameters_m[0]
+            continue
+        lo, hi = model.diameters_m[j - 1], model.diameters_m[j]
+        out[i] = brentq(lambda d: model.x_at(d) - need[i], lo, hi, xtol=1e-6)
+    return out
+
+
+def least_rf_power_w(space, required_margin_db: float) -> np.ndarray:
+    """Least RF power [W] that closes each (ground antenna, spacecraft antenna, coded modulation).
+
+    The margin is linear in the RF power in dB: P_min = P + (required - margin) for any P.
+
+    Returns
+    -------
+    power_w : ndarray, shape (G, A, C)
+    """
+    p_dbw = required_margin_db - (space.x_g[:, None, None] + space.y_a[None, :, None] + space.w_c[None, None, :]
+                                  + space.const_db)
+    return np.power(10.0, p_dbw / 10.0)
+
+
+def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
+    """Optimum spacecraft mass and DC power vs ground dish diameter for one band.
+
+    At each diameter every (spacecraft antenna, amplifier, coded modulation) is
+    checked against all constraints; the optimum is the feasible one with the
+    least objective (ties to the larger margin).
+
+    Returns
+    -------
+    curve : dict of ndarray
+        ``diameter_m``, ``best_mass_kg``, ``best_dc_power_w``, ``margin_db``, ``a``, ``m``, ``c``
+        (indices; -1 where nothing is feasible), and ``knee_diameter_m`` (float or None).
+    """
+    n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
+    rest = space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :] + space.const_db
+    mass = (space.mass_a[:, None] + space.mass_m[None, :])[:, :, None] * np.ones((1, 1, n_c))
+    dc = np.broadcast_to(space.dc_power_m[None, :, None], rest.shape)
+    fixed_ok = np.broadcast_to(space.bandwidth_c_hz[None, None, :] <= space.available_bandwidth_hz, rest.shape)
+    if space.pfd_worst_db is not None:
+        pfd = space.eirp_am_dbw[:, :, None] + space.pfd_density_c_db[None, None, :] + space.pfd_worst_db
+        fixed_ok = fixed_ok & (pfd <= 0)
+    fixed_ok = fixed_ok & (mass <= limits.max_comm_mass_kg) & (dc <= limits.max_dc_power_w)
+    obj = mass if objective == "mass" else dc
+    nd = model.diameters_m.size
+    out = {k: np.full(nd, np.nan) for k in ("best_mass_kg", "best_dc_power_w", "margin_db")}
+    for k in ("a", "m", "c"):
+        out[k] = np.full(nd, -1, dtype=int)
+    flat_obj = obj.reshape(-1)
+    for i in range(nd):
+        margin = (model.x_d[i] + rest).reshape(-1)
+        feas = fixed_ok.reshape(-1) & (margin >= limits.required_margin_db - 1e-12)
+        if not feas.any():
+            continue
+        fi = np.flatnonzero(feas)
+        j = fi[np.lexsort((-margin[fi], np.round(flat_obj[fi], 9)))[0]]
+        a, m, c = np.unravel_index(j, (n_a, n_m, n_c))
+        out["best_mass_kg"][i] = mass.reshape(-1)[j]
+        out["best_dc_power_w"][i] = dc.reshape(-1)[j]
+        out["margin_db"][i] = margin[j]
+        out["a"][i], out["m"][i], out["c"][i] = a, m, c
+    out["diameter_m"] = model.diameters_m
+    best = out["best_mass_kg"] if objective == "mass" else out["best_dc_power_w"]
+    knee = None
+    if np.isfinite(best).any():
+        floor = np.nanmin(best)
+        hit = np.flatnonzero(np.isfinite(best) & (best <= floor * (1.0 + KNEE_FRACTION)))
+        knee = float(model.diameters_m[hit[0]])
+    out["knee_diameter_m"] = knee
+    return out

@@ -1,0 +1,269 @@
+"""The design space of one band: per-axis term vectors and per-site terms.
+
+A design is (band, ground antenna, spacecraft antenna, amplifier, coded
+modulation). Link terms that are additive in decibels split into vectors that
+depend on one axis each, so the margin of every design of a band is
+
+    margin[g, a, m, c] = X[g] + Y[a] + Z[m] + W[c] + const,
+
+where X already holds the worst required site (the site terms depend only on
+the ground antenna). Propagation is computed once per (site, frequency,
+elevation, availability, aperture) and reused for every design.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..physics import antenna, noise, path, propagation, waveform
+from ..physics.units import BOLTZMANN_DBW_PER_K_HZ
+from .linkcalc import end_gain_and_pointing, sky_noise_increase_at_receiver_k
+
+__all__ = ["BandSpace", "SiteTerms", "build_band_space", "site_terms_for_apertures", "site_geometry"]
+
+
+@dataclass
+class SiteTerms:
+    """Per-(ground aperture, site) terms at each site's minimum elevation.
+
+    Arrays are shaped (n_apertures, n_sites).
+    """
+
+    site_ids: list
+    elevation_deg: np.ndarray  # (n_sites,)
+    range_m: np.ndarray  # (n_sites,)
+    free_space_loss_db: np.ndarray  # (n_sites,)
+    gas_db: np.ndarray
+    cloud_db: np.ndarray
+    rain_db: np.ndarray
+    scintillation_db: np.ndarray
+    atmospheric_db: np.ndarray
+    system_noise_temperature_k: np.ndarray
+    sky_noise_increase_k: np.ndarray
+
+
+@dataclass
+class BandSpace:
+    """Axis tables and term vectors of one band's design space."""
+
+    band_id: str
+    band: str
+    frequency_hz: float
+    available_bandwidth_hz: float
+    ground: object  # DataFrame of ground antennas (axis g)
+    craft_antennas: object  # DataFrame (axis a)
+    amplifiers: object  # DataFrame (axis m)
+    modcods: object  # DataFrame (axis c)
+    x_g: np.ndarray
+    y_a: np.ndarray
+    z_m: np.ndarray
+    w_c: np.ndarray
+    const_db: float
+    limiting_site_g: np.ndarray  # index of the worst required site per ground antenna
+    site_terms: SiteTerms
+    mass_a: np.ndarray
+    mass_m: np.ndarray
+    dc_power_m: np.ndarray
+    eirp_am_dbw: np.ndarray  # (A, M)
+    bandwidth_c_hz: np.ndarray
+    pfd_density_c_db: np.ndarray  # 10 log10(min(1, ref_bw / occupied_bw))
+    pfd_worst_db: float | None  # max over arrival angles of (-spreading - limit); None when no limit applies
+    pfd_worst_angle_deg: float | None
+    pfd_source: str = ""
+    notes: list = field(default_factory=list)
+
+    @property
+    def shape(self) -> tuple:
+        """(G, A, M, C)."""
+        return (len(self.x_g), len(self.y_a), len(self.z_m), len(self.w_c))
+
+    @property
+    def size(self) -> int:
+        """Number of designs."""
+        return int(np.prod(self.shape))
+
+
+def site_geometry(scenario, sites) -> tuple[np.ndarray, np.ndarray]:
+    """Elevation [deg] and slant range [m] at each site's minimum elevation."""
+    el = np.array([s.min_elevation_deg for s in sites], dtype=float)
+    if scenario.range_m is not None:
+        rng = np.full(el.shape, float(scenario.range_m))
+    else:
+        rng = np.asarray(path.slant_range_m(scenario.altitude_m, el), dtype=float)
+    return el, rng
+
+
+def site_terms_for_apertures(scenario, sites, frequency_hz: float, *, diameter_m, efficiency, feed_loss_db,
+                             clear_sky_temperature_k, elevation_deg=None, range_m=None) -> SiteTerms:
+    """Propagation and noise terms for each ground aperture at each site.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        For availability, orbit and polarization tilt.
+    sites : list of Site
+        The sites.
+    frequency_hz : float
+        [Hz].
+    diameter_m, efficiency, feed_loss_db, clear_sky_temperature_k : array_like
+        Per aperture: diameter [m], efficiency [-], feed loss [dB], clear-sky system noise temperature [K].
+    elevation_deg, range_m : array_like, optional
+        Per site; default each site's minimum elevation and the slant range there.
+
+    Returns
+    -------
+    SiteTerms
+    """
+    d = np.atleast_1d(np.asarray(diameter_m, dtype=float))
+    eta = np.broadcast_to(np.asarray(efficiency, dtype=float), d.shape)
+    feed = np.broadcast_to(np.asarray(feed_loss_db, dtype=float), d.shape)
+    t_clear = np.broadcast_to(np.asarray(clear_sky_temperature_k, dtype=float), d.shape)
+    if elevation_deg is None:
+        el, rng = site_geometry(scenario, sites)
+    else:
+        el, rng = np.asarray(elevation_deg, dtype=float), np.asarray(range_m, dtype=float)
+    fsl = np.asarray(path.free_space_loss_db(rng, frequency_hz), dtype=float).reshape(-1)
+    shape = (d.size, len(sites))
+    comp = {k: np.empty(shape) for k in ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")}
+    for j, s in enumerate(sites):
+        t = propagation.site_attenuation(
+            latitude_deg=s.latitude_deg, longitude_deg=s.longitude_deg, altitude_m=s.altitude_m,
+            frequency_hz=frequency_hz, percent_of_year=scenario.percent_of_year,
+            elevation_deg=np.full(d.shape, el[j]), antenna_diameter_m=d, antenna_efficiency=eta,
+            polarization_tilt_deg=scenario.polarization_tilt_deg)
+        for k in comp:
+            comp[k][:, j] = t[k]
+    rise = sky_noise_increase_at_receiver_k(comp["gas_db"], comp["cloud_db"], comp["rain_db"], feed[:, None])
+    return SiteTerms(site_ids=[s.id for s in sites], elevation_deg=el, range_m=rng, free_space_loss_db=fsl,
+                     gas_db=comp["gas_db"], cloud_db=comp["cloud_db"], rain_db=comp["rain_db"],
+                     scintillation_db=comp["scintillation_db"], atmospheric_db=comp["total_db"],
+                     system_noise_temperature_k=t_clear[:, None] + rise, sky_noise_increase_k=rise)
+
+
+def _filter(table, column: str, allowed):
+    if allowed is None:
+        return table
+    return table[table[column].isin(allowed)]
+
+
+def _pfd_worst(scenario, catalog, frequency_hz: float, sites):
+    """Max over arrival angles of (-10 log10(4 pi d^2) - limit) [dB], its angle, and the table row used."""
+    lim = catalog.pfd_limits
+    row = lim[(lim["lower_hz"] <= frequency_hz) & (lim["upper_hz"] >= frequency_hz)]
+    if row.empty:
+        return None, None, None
+    r = row.iloc[0]
+    lowest = min(s.min_elevation_deg for s in sites)
+    if scenario.range_m is not None:
+        angles = np.array([lowest])
+        rng = np.array([float(scenario.range_m)])
+    else:
+        angles = np.unique(np.concatenate([[lowest], np.arange(np.ceil(lowest), 90.0 + 1e-9, 0.5)]))
+        rng = np.asarray(path.slant_range_m(scenario.altitude_m, angles), dtype=float)
+    limit = np.interp(angles, [r.low_angle_deg, r.high_angle_deg], [r.pfd_low_dbw_m2, r.pfd_high_dbw_m2])
+    value = -10.0 * np.log10(4.0 * np.pi * rng**2) - limit
+    i = int(np.argmax(value))
+    return float(value[i]), float(angles[i]), r
+
+
+def build_band_space(scenario, band_id: str) -> BandSpace:
+    """Per-axis vectors for one band of a scenario (required sites only enter the margin).
+
+    Parameters
+    ----------
+    scenario : Scenario
+    band_id : str
+        A band of the scenario.
+
+    Returns
+    -------
+    BandSpace
+    """
+    cat = scenario.catalog
+    b = cat.bands.set_index("band_id").loc[band_id]
+    letter = str(b["band"])
+    f_hz = float(b["centre_frequency_hz"])
+    opts = scenario.options
+    ground = _filter(cat.ground_antennas, "ground_antenna_id", opts.get("ground_antennas"))
+    ground = ground[ground["band"] == letter].reset_index(drop=True)
+    craft = _filter(cat.spacecraft_antennas, "spacecraft_antenna_id", opts.get("spacecraft_antennas"))
+    craft = craft[craft["band"] == letter].reset_index(drop=True)
+    amps = _filter(cat.amplifiers, "amplifier_id", opts.get("amplifiers"))
+    amps = amps[amps["band"] == letter].reset_index(drop=True)
+    mods = _filter(cat.modcods, "modcod_id", opts.get("modcods")).reset_index(drop=True)
+    notes = []
+
+    # Ground axis: gain, pointing loss, clear-sky noise, and the worst required site.
+    g_gain, g_point, _ = end_gain_and_pointing(frequency_hz=f_hz, diameter_m=ground["diameter_m"].to_numpy(float),
+                                               efficiency=ground["efficiency"].to_numpy(float),
+                                               pointing_error_deg=ground["pointing_error_deg"].to_numpy(float))
+    g_gain = np.asarray(g_gain, dtype=float)
+    g_point = np.asarray(g_point, dtype=float)
+    t_clear = np.asarray(noise.system_noise_temperature_k(ground["antenna_noise_temperature_k"].to_numpy(float),
+                                                          ground["feed_loss_db"].to_numpy(float),
+                                                          ground["lna_noise_temperature_k"].to_numpy(float)),
+                         dtype=float)
+    required = [s for s in scenario.sites if s.required]
+    st = site_terms_for_apertures(scenario, required, f_hz, diameter_m=ground["diameter_m"].to_numpy(float),
+                                  efficiency=ground["efficiency"].to_numpy(float),
+                                  feed_loss_db=ground["feed_loss_db"].to_numpy(float), clear_sky_temperature_k=t_clear)
+    per_site = -st.free_space_loss_db[None, :] - st.atmospheric_db - 10.0 * np.log10(st.system_noise_temperature_k)
+    worst = np.argmin(per_site, axis=1) if len(ground) else np.zeros(0, dtype=int)
+    x_g = g_gain - g_point + (per_site[np.arange(len(ground)), worst] if len(ground) else np.zeros(0))
+
+    # Spacecraft antenna axis.
+    is_refl = (craft["kind"] == "reflector").to_numpy()
+    a_gain = craft["gain_dbi"].to_numpy(float).copy()
+    a_point = np.zeros(len(craft))
+    if is_refl.any():
+        gain_r, point_r, _ = end_gain_and_pointing(frequency_hz=f_hz, diameter_m=craft["diameter_m"].to_numpy(float)[is_refl],
+                                                   efficiency=craft["efficiency"].to_numpy(float)[is_refl],
+                                                   pointing_error_deg=craft["pointing_error_deg"].to_numpy(float)[is_refl])
+        a_gain[is_refl] = gain_r
+        a_point[is_refl] = point_r
+    a_line = craft["line_loss_db"].to_numpy(float)
+    y_a = a_gain - a_line - a_point
+
+    # Amplifier axis.
+    p_dbw = 10.0 * np.log10(amps["rf_power_w"].to_numpy(float))
+    dc_m = amps["rf_power_w"].to_numpy(float) / amps["dc_to_rf_efficiency"].to_numpy(float)
+    mass_m = amps["mass_kg"].to_numpy(float) + scenario.power_mass_kg_per_w * dc_m
+
+    # Coded-modulation axis.
+    w_c = -mods["ebn0_required_db"].to_numpy(float)
+    sym = waveform.symbol_rate_baud(scenario.rate_bps, mods["info_bits_per_symbol"].to_numpy(float))
+    bw_c = np.asarray(waveform.occupied_bandwidth_hz(sym, mods["rolloff"].to_numpy(float)), dtype=float)
+
+    const = (-scenario.polarization_loss_db - scenario.other_losses_db - BOLTZMANN_DBW_PER_K_HZ
+             - 10.0 * np.log10(scenario.rate_bps) - scenario.implementation_loss_db)
+
+    available = float(b["upper_hz"] - b["lower_hz"])
+    if band_id in scenario.bandwidth_limits_hz:
+        available = min(available, float(scenario.bandwidth_limits_hz[band_id]))
+
+    pfd_worst, pfd_angle, pfd_row = _pfd_worst(scenario, cat, f_hz, scenario.sites)
+    if pfd_row is None:
+        dens = np.zeros(len(mods))
+        notes.append(f"{band_id}: no power-flux-density limit in the catalog covers {f_hz / 1e9:g} GHz")
+        pfd_source = ""
+    else:
+        dens = 10.0 * np.log10(np.minimum(1.0, float(pfd_row.reference_bandwidth_hz) / bw_c))
+        pfd_source = f"{pfd_row.source} [{pfd_row.confidence}]"
+    eirp_am = p_dbw[None, :] + (a_gain - a_line)[:, None]
+    notes.extend(f"{band_id}: {n}" for n in propagation.validity_notes(f_hz))
+    if (craft["kind"] != "reflector").any():
+        notes.append(f"{band_id}: fixed-gain spacecraft antennas count their catalog gain in every direction for the "
+                     "pfd check (conservative)")
+    lim = antenna.POINTING_LAW_LIMIT
+    bw_g = np.asarray(antenna.half_power_beamwidth_deg(ground["diameter_m"].to_numpy(float), f_hz), dtype=float)
+    over = ground["pointing_error_deg"].to_numpy(float) > lim * bw_g
+    for gid in ground["ground_antenna_id"][over]:
+        notes.append(f"{band_id}: {gid} pointing error exceeds half its beamwidth; its pointing loss is understated")
+
+    return BandSpace(band_id=band_id, band=letter, frequency_hz=f_hz, available_bandwidth_hz=available,
+                     ground=ground, craft_antennas=craft, amplifiers=amps, modcods=mods, x_g=x_g, y_a=y_a, z_m=p_dbw,
+                     w_c=w_c, const_db=float(const), limiting_site_g=worst, site_terms=st,
+                     mass_a=craft["mass_kg"].to_numpy(float), mass_m=mass_m, dc_power_m=dc_m, eirp_am_dbw=eirp_am,
+                     bandwidth_c_hz=bw_c, pfd_density_c_db=dens, pfd_worst_db=pfd_worst,
+                     pfd_worst_angle_deg=pfd_angle, pfd_source=pfd_source, notes=notes)
