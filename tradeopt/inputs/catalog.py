@@ -7,6 +7,7 @@ line 1) and the column, and say what was expected.
 from __future__ import annotations
 
 import csv
+import io
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -37,7 +38,7 @@ CATALOG_SCHEMAS: dict[str, list[Field]] = {
         Field("diameter_m", unit="m", low=0.0, low_open=True, high=100.0),
         Field("efficiency", low=0.0, low_open=True, high=1.0),
         Field("feed_loss_db", unit="dB", low=0.0, high=10.0),
-        Field("lna_noise_temperature_k", unit="K", low=0.0, high=5000.0),
+        Field("lna_noise_temperature_k", unit="K", low=0.0, low_open=True, high=5000.0),
         Field("antenna_noise_temperature_k", unit="K", low=0.0, high=5000.0),
         Field("pointing_error_deg", unit="deg", low=0.0, high=10.0),
         Field("max_tx_power_w", unit="W", low=0.0, low_open=True),
@@ -136,18 +137,33 @@ def read_catalog_csv(path: Path, name: str):
     fname = str(path)
     schema = CATALOG_SCHEMAS[name]
     try:
-        text = Path(path).read_text(encoding="utf-8")
+        # utf-8-sig: a byte-order mark written by a spreadsheet is not part of the first column name.
+        text = Path(path).read_text(encoding="utf-8-sig")
     except FileNotFoundError:
         raise InputError("file not found; expected a CSV catalog here", file=fname) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"cannot be read as UTF-8 text ({exc.__class__.__name__})", file=fname) from None
-    rows = list(csv.reader(text.splitlines()))
-    rows_lines = [(i + 1, r) for i, r in enumerate(rows) if any(c.strip() for c in r)]
+    rows_lines = []
+    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
+    start = 1
+    try:
+        for row in reader:
+            # ``start`` is the file line where the row begins (a quoted cell may span lines).
+            if any(c.strip() for c in row):
+                rows_lines.append((start, row))
+            start = reader.line_num + 1
+    except csv.Error as exc:
+        raise InputError(f"is not valid CSV ({exc}); expected comma-separated cells, text with commas "
+                         "in double quotes", file=fname, where=f"line {start}") from None
     if not rows_lines:
         raise InputError("file is empty; expected a header line and at least one row", file=fname)
     header_line, header = rows_lines[0]
     header = [h.strip() for h in header]
-    check_known(header, [f.name for f in schema], file=fname, where=f"line {header_line} (header)")
+    known = [f.name for f in schema]
+    if len(header) == 1 and ";" in header[0]:
+        raise InputError("the header has one column with semicolons in it; expected comma-separated "
+                         f"columns: {', '.join(known)}", file=fname, where=f"line {header_line} (header)")
+    check_known(header, known, file=fname, where=f"line {header_line} (header)")
     seen = set()
     for h in header:
         if h in seen:
@@ -158,13 +174,21 @@ def read_catalog_csv(path: Path, name: str):
             raise InputError(f"missing column {f.name!r}; expected {f.expectation()}", file=fname,
                              where=f"line {header_line} (header)")
     if len(rows_lines) == 1:
-        raise InputError("has a header but no rows; expected at least one item", file=fname)
+        raise InputError("has a header but no rows; expected at least one item", file=fname,
+                         where=f"line {header_line} (header)")
     records = []
     keys_seen = {}
     for line, row in rows_lines[1:]:
-        if len(row) != len(header):
-            raise InputError(f"has {len(row)} fields, the header has {len(header)}", file=fname,
-                             where=f"line {line}")
+        if len(row) < len(header):
+            missing = header[len(row):]
+            raise InputError(f"has {len(row)} cells, the header has {len(header)}: no cell for column "
+                             f"{missing[0]!r}" + (f" and {len(missing) - 1} more" if len(missing) > 1 else "")
+                             + "; put text containing commas in double quotes", file=fname,
+                             where=f"line {line}, column {missing[0]!r}")
+        if len(row) > len(header):
+            raise InputError(f"has {len(row)} cells, the header has {len(header)}: extra cell after the last "
+                             f"column {header[-1]!r}; put text containing commas in double quotes", file=fname,
+                             where=f"line {line}, column {header[-1]!r}")
         cells = dict(zip(header, row))
         rec = {}
         for f in schema:
@@ -173,8 +197,8 @@ def read_catalog_csv(path: Path, name: str):
         key = tuple(rec[k] for k in _KEYS[name])
         if key in keys_seen:
             shown = ", ".join(f"{k} {v!r}" for k, v in zip(_KEYS[name], key))
-            raise InputError(f"duplicate item ({shown}) already on line {keys_seen[key]}", file=fname,
-                             where=f"line {line}")
+            raise InputError(f"duplicate item ({shown}) already on line {keys_seen[key]}; expected unique IDs",
+                             file=fname, where=f"line {line}, column {_KEYS[name][0]!r}")
         keys_seen[key] = line
         rec["line"] = line
         records.append(rec)
@@ -200,33 +224,61 @@ class Catalog:
 
 def _cross_check(cat: Catalog) -> None:
     f = cat.file
+
+    def where(r, column: str) -> str:
+        return f"line {r.line}, column {column!r}"
+
     for r in cat.bands.itertuples():
+        if not r.lower_hz < r.upper_hz:
+            raise InputError(f"lower_hz {r.lower_hz:g} is not below upper_hz {r.upper_hz:g}; expected "
+                             "lower_hz < upper_hz", file=f("bands"), where=where(r, "lower_hz"))
         if not r.lower_hz < r.centre_frequency_hz < r.upper_hz:
-            raise InputError("expected lower_hz < centre_frequency_hz < upper_hz", file=f("bands"),
-                             where=f"line {r.line}")
+            raise InputError(f"centre_frequency_hz {r.centre_frequency_hz:g} is outside {r.lower_hz:g} to "
+                             f"{r.upper_hz:g}; expected lower_hz < centre_frequency_hz < upper_hz",
+                             file=f("bands"), where=where(r, "centre_frequency_hz"))
     for r in cat.pfd_limits.itertuples():
-        if not r.lower_hz < r.upper_hz or not r.low_angle_deg < r.high_angle_deg:
-            raise InputError("expected lower_hz < upper_hz and low_angle_deg < high_angle_deg",
-                             file=f("pfd_limits"), where=f"line {r.line}")
+        if not r.lower_hz < r.upper_hz:
+            raise InputError(f"lower_hz {r.lower_hz:g} is not below upper_hz {r.upper_hz:g}; expected "
+                             "lower_hz < upper_hz", file=f("pfd_limits"), where=where(r, "lower_hz"))
+        if not r.low_angle_deg < r.high_angle_deg:
+            raise InputError(f"low_angle_deg {r.low_angle_deg:g} is not below high_angle_deg "
+                             f"{r.high_angle_deg:g}; expected low_angle_deg < high_angle_deg",
+                             file=f("pfd_limits"), where=where(r, "low_angle_deg"))
+    for r in cat.modcods.itertuples():
+        if r.info_bits_per_symbol > r.bits_per_symbol:
+            raise InputError(f"info_bits_per_symbol {r.info_bits_per_symbol:g} exceeds bits_per_symbol "
+                             f"{r.bits_per_symbol}; expected at most bits_per_symbol x code_rate",
+                             file=f("modcods"), where=where(r, "info_bits_per_symbol"))
     diam = {}
     for r in cat.ground_antennas.itertuples():
         first = diam.setdefault(r.ground_antenna_id, (r.diameter_m, r.line))
         if first[0] != r.diameter_m:
             raise InputError(f"diameter_m {r.diameter_m:g} differs from {first[0]:g} on line {first[1]} "
-                             f"for the same ground_antenna_id {r.ground_antenna_id!r}",
-                             file=f("ground_antennas"), where=f"line {r.line}, column 'diameter_m'")
+                             f"for the same ground_antenna_id {r.ground_antenna_id!r}; expected one diameter "
+                             "per antenna", file=f("ground_antennas"), where=where(r, "diameter_m"))
     for r in cat.spacecraft_antennas.itertuples():
-        where = f"line {r.line}"
         has_gain = r.gain_dbi is not None and r.gain_dbi == r.gain_dbi
         has_dish = r.diameter_m is not None and r.diameter_m == r.diameter_m
         has_eff = r.efficiency is not None and r.efficiency == r.efficiency
+        file = f("spacecraft_antennas")
         if r.kind == "reflector":
-            if not (has_dish and has_eff) or has_gain:
-                raise InputError("a reflector needs diameter_m and efficiency and no gain_dbi",
-                                 file=f("spacecraft_antennas"), where=where)
-        elif not has_gain or has_dish:
-            raise InputError(f"a {r.kind} antenna needs gain_dbi (its gain over the directions used) "
-                             "and no diameter_m", file=f("spacecraft_antennas"), where=where)
+            if not has_dish:
+                raise InputError("missing; a reflector needs diameter_m (and efficiency, and no gain_dbi)",
+                                 file=file, where=where(r, "diameter_m"))
+            if not has_eff:
+                raise InputError("missing; a reflector needs efficiency (and diameter_m, and no gain_dbi)",
+                                 file=file, where=where(r, "efficiency"))
+            if has_gain:
+                raise InputError("a reflector's gain comes from diameter_m and efficiency; expected gain_dbi "
+                                 "empty", file=file, where=where(r, "gain_dbi"))
+        else:
+            if not has_gain:
+                raise InputError(f"missing; a {r.kind} antenna needs gain_dbi (its gain over the directions "
+                                 "used)", file=file, where=where(r, "gain_dbi"))
+            for col, has in (("diameter_m", has_dish), ("efficiency", has_eff)):
+                if has:
+                    raise InputError(f"a {r.kind} antenna is given by gain_dbi; expected {col} empty "
+                                     "(only reflectors have a diameter)", file=file, where=where(r, col))
 
 
 def load_catalog(directory: Path | str | None = None) -> Catalog:

@@ -22,11 +22,11 @@ LINK_SCHEMA: dict[str, list[Field]] = {
     "link": [
         Field("direction", "choice", choices=("downlink", "uplink")),
         Field("band", "str", required=False),
-        Field("frequency_hz", unit="Hz", required=False, **_pos),
+        Field("frequency_hz", unit="Hz", required=False, low=1.0e6, high=3.0e12),
         Field("availability_percent", unit="%", required=False, low=0.0, high=100.0, low_open=True,
               high_open=True),
-        Field("range_m", unit="m", required=False, **_pos),
-        Field("altitude_m", unit="m", required=False, **_pos),
+        Field("range_m", unit="m", required=False, low=0.0, low_open=True, high=1.0e14),
+        Field("altitude_m", unit="m", required=False, low=0.0, low_open=True, high=1.0e12),
         Field("elevation_deg", unit="deg", low=0.0, high=90.0, low_open=True),
         Field("polarization_tilt_deg", unit="deg", required=False, default=45.0, low=0.0, high=90.0),
         Field("catalogs", "str", required=False),
@@ -40,34 +40,34 @@ LINK_SCHEMA: dict[str, list[Field]] = {
     "transmitter": [
         Field("amplifier", "str", required=False),
         Field("antenna", "str", required=False),
-        Field("power_w", unit="W", required=False, **_pos),
-        Field("line_loss_db", unit="dB", required=False, low=0.0),
+        Field("power_w", unit="W", required=False, low=0.0, low_open=True, high=1.0e7),
+        Field("line_loss_db", unit="dB", required=False, low=0.0, high=100.0),
         Field("antenna_gain_dbi", unit="dBi", required=False, low=-20.0, high=90.0),
-        Field("antenna_diameter_m", unit="m", required=False, **_pos),
+        Field("antenna_diameter_m", unit="m", required=False, low=0.0, low_open=True, high=1000.0),
         Field("antenna_efficiency", required=False, low=0.0, high=1.0, low_open=True),
-        Field("beamwidth_deg", unit="deg", required=False, low=0.0, high=360.0, low_open=True),
+        Field("beamwidth_deg", unit="deg", required=False, low=1.0e-4, high=360.0),
         Field("pointing_error_deg", unit="deg", required=False, low=0.0, high=90.0),
     ],
     "receiver": [
         Field("antenna", "str", required=False),
         Field("antenna_gain_dbi", unit="dBi", required=False, low=-20.0, high=90.0),
-        Field("antenna_diameter_m", unit="m", required=False, **_pos),
+        Field("antenna_diameter_m", unit="m", required=False, low=0.0, low_open=True, high=1000.0),
         Field("antenna_efficiency", required=False, low=0.0, high=1.0, low_open=True),
-        Field("beamwidth_deg", unit="deg", required=False, low=0.0, high=360.0, low_open=True),
-        Field("system_noise_temperature_k", unit="K", required=False, **_pos),
+        Field("beamwidth_deg", unit="deg", required=False, low=1.0e-4, high=360.0),
+        Field("system_noise_temperature_k", unit="K", required=False, low=1.0, high=1.0e6),
         Field("gt_dbk", unit="dB/K", required=False, low=-100.0, high=100.0),
         Field("pointing_error_deg", unit="deg", required=False, low=0.0, high=90.0),
     ],
     "losses": [
-        Field("polarization_db", unit="dB", required=False, low=0.0),
-        Field("other_db", unit="dB", required=False, low=0.0),
+        Field("polarization_db", unit="dB", required=False, low=0.0, high=100.0),
+        Field("other_db", unit="dB", required=False, low=0.0, high=100.0),
     ],
     "waveform": [
         Field("rate_bps", unit="bit/s", **_pos),
         Field("modcod", "str", required=False),
         Field("ebn0_required_db", unit="dB", required=False, low=-2.0, high=40.0),
-        Field("implementation_loss_db", unit="dB", required=False, low=0.0),
-        Field("required_margin_db", unit="dB", required=False),
+        Field("implementation_loss_db", unit="dB", required=False, low=0.0, high=50.0),
+        Field("required_margin_db", unit="dB", required=False, low=-100.0, high=100.0),
     ],
 }
 _REQUIRED_TABLES = ("link", "transmitter", "receiver", "waveform")
@@ -141,18 +141,19 @@ def read_toml(path: Path | str) -> dict:
 def _table(data: dict, name: str, file: str | None) -> dict:
     raw = data.get(name, {})
     if not isinstance(raw, dict):
-        raise InputError(f"expected a table [{name}]", file=file, where=f"key {name}")
+        raise InputError(f"expected a table [{name}], got a value", file=file, where=f"table [{name}]")
     check_known(raw.keys(), [f.name for f in LINK_SCHEMA[name]], file=file, where=f"table [{name}]", what="key")
-    return {f.name: convert(raw.get(f.name, MISSING), f, file=file, where=f"key [{name}] {f.name}")
+    return {f.name: convert(raw.get(f.name, MISSING), f, file=file, where=f"key [{name}] {f.name}", typed=True)
             for f in LINK_SCHEMA[name]}
 
 
 def _lookup(table, column: str, value: str, *, file, where, what: str):
     rows = table[table[column] == value]
     if rows.empty:
-        import difflib  # noqa: PLC0415
-        hint = difflib.get_close_matches(value, sorted(set(table[column])), n=1)
-        tip = f"; did you mean {hint[0]!r}?" if hint else f"; known: {', '.join(sorted(set(table[column])))}"
+        from .schema import _close_match  # noqa: PLC0415
+        known = sorted(set(table[column]))
+        hint = _close_match(value, known)
+        tip = f"; did you mean {hint!r}?" if hint else f"; known: {', '.join(known)}"
         raise InputError(f"unknown {what} {value!r}{tip}", file=file, where=where)
     return rows
 
@@ -228,6 +229,9 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         cat_dir = link["catalogs"]
         if cat_dir is not None and file is not None:
             cat_dir = str((Path(file).parent / cat_dir))
+        if cat_dir is not None and not Path(cat_dir).is_dir():
+            raise InputError(f"catalog folder {cat_dir!r} not found; expected a folder of CSV catalogs "
+                             "(relative to the link file)", file=file, where="key [link] catalogs")
         catalog = load_catalog(cat_dir)
 
     direction = link["direction"]
@@ -239,7 +243,7 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
     if band_id is not None:
         row = _lookup(catalog.bands, "band_id", band_id, file=file, where="key [link] band", what="band").iloc[0]
         if row["direction"] != direction:
-            raise InputError(f"band {band_id!r} is a {row['direction']} band; the link is a {direction}",
+            raise InputError(f"band {band_id!r} is for the {row['direction']}; the link is a {direction}",
                              file=file, where="key [link] band")
         frequency_hz = float(row["centre_frequency_hz"])
         band_letter = str(row["band"])
@@ -315,6 +319,11 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
                     end = End(diameter_m=float(r["diameter_m"]), efficiency=float(r["efficiency"]),
                               pointing_error_deg=float(r["pointing_error_deg"]), item_id=v["antenna"])
                 else:
+                    if v.get("pointing_error_deg"):
+                        raise InputError(f"catalog antenna {v['antenna']!r} is a {r['kind']} whose gain_dbi is the "
+                                         "gain over the directions used, so a pointing error has no effect; "
+                                         "remove pointing_error_deg (or give the antenna by values with "
+                                         "beamwidth_deg)", file=file, where=f"key [{table}] pointing_error_deg")
                     end = End(gain_dbi=float(r["gain_dbi"]), item_id=v["antenna"])
                     assumptions.append(f"{v['antenna']}: catalog gain is the gain over the directions used; "
                                        "no separate pointing loss")
@@ -388,6 +397,22 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         if value is None:
             assumptions.append(f"[{table}] {key} not given: 0 dB")
 
+    # A gain from a diameter must stay inside the range accepted for antenna_gain_dbi: a dish of a
+    # few wavelengths or less is outside the aperture formula (and an absurd one gives -inf dB).
+    import numpy as np  # noqa: PLC0415
+
+    from ..physics.antenna import parabolic_gain_dbi  # noqa: PLC0415
+    for name, table in (("tx", "transmitter"), ("rx", "receiver")):
+        e = ends[name]
+        if e.diameter_m is not None and e.item_id is None:
+            with np.errstate(all="ignore"):
+                g = float(parabolic_gain_dbi(e.diameter_m, frequency_hz, e.efficiency))
+            if not g >= -20.0:
+                raise InputError(f"antenna_diameter_m {e.diameter_m:g} m with efficiency {e.efficiency:g} gives "
+                                 f"{g:.1f} dBi at {frequency_hz / 1e9:g} GHz; expected a dish of at least a few "
+                                 "wavelengths (gain >= -20 dBi)", file=file,
+                                 where=f"key [{table}] antenna_diameter_m")
+
     return LinkSpec(
         direction=direction, frequency_hz=frequency_hz, elevation_deg=elevation_deg,
         rate_bps=wave["rate_bps"], ebn0_required_db=ebn0_req, tx_power_w=tx_power_w,
@@ -425,8 +450,9 @@ def locate_model_error(exc: Exception, spec: LinkSpec) -> InputError:
     }
     if exc.parameter == "percent_of_year":
         low, high = 100.0 - exc.high, 100.0 - exc.low
-        return InputError(f"availability_percent = {100.0 - exc.value:g} is outside the validity of {exc.model} "
-                          f"({low:g} to {high:g}); choose a value in that range", file=spec.file,
+        model = exc.model.split(" (")[0]
+        return InputError(f"availability_percent = {100.0 - exc.value:g} is outside the validity of {model} "
+                          f"({low:g} % to {high:g} %); choose a value in that range", file=spec.file,
                           where="key [link] availability_percent")
     where = keys.get(exc.parameter)
     return InputError(str(exc), file=spec.file, where=f"key {where}" if where else None)

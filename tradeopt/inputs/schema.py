@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import difflib
 import math
+import re
 from dataclasses import dataclass
 from typing import Any
 
@@ -16,6 +17,10 @@ from .errors import InputError
 __all__ = ["Field", "convert", "check_known", "MISSING"]
 
 MISSING = object()
+
+#: A plain decimal number as written in a CSV cell (no underscores, no hex; ``nan``/``inf`` are
+#: caught separately as non-finite).
+_NUMBER_TEXT = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?|[+-]?(?:nan|inf|infinity)", re.IGNORECASE)
 
 
 @dataclass(frozen=True)
@@ -78,7 +83,17 @@ def _fail(field: Field, value, file, where, detail: str = "") -> InputError:
     return InputError(f"expected {field.expectation()}, got {shown}{extra}", file=file, where=where)
 
 
-def convert(raw, field: Field, *, file: str | None, where: str):
+def _close_match(value: str, choices, cutoff: float = 0.6) -> str | None:
+    """The choice ``value`` most likely meant (case first, then spelling)."""
+    choices = [str(c) for c in choices]
+    for c in choices:
+        if c.casefold() == value.casefold():
+            return c
+    hint = difflib.get_close_matches(value, choices, n=1, cutoff=cutoff)
+    return hint[0] if hint else None
+
+
+def convert(raw, field: Field, *, file: str | None, where: str, typed: bool = False):
     """Convert and check one value.
 
     Parameters
@@ -92,6 +107,9 @@ def convert(raw, field: Field, *, file: str | None, where: str):
         File name for the message.
     where : str
         Row/column or key for the message.
+    typed : bool, optional
+        The value comes from a typed format (TOML): a quoted text is then
+        rejected where a number or true/false is expected, instead of parsed.
 
     Returns
     -------
@@ -113,10 +131,11 @@ def convert(raw, field: Field, *, file: str | None, where: str):
             raise _fail(field, raw, file, where)
         if isinstance(raw, str):
             text = raw.strip()
-            try:
-                value = float(text)
-            except ValueError:
-                raise _fail(field, text, file, where) from None
+            if typed:
+                raise _fail(field, raw, file, where, "a quoted text; write the number without quotes")
+            if not _NUMBER_TEXT.fullmatch(text):
+                raise _fail(field, text, file, where)
+            value = float(text)
         elif isinstance(raw, (int, float)):
             value = float(raw)
         else:
@@ -135,6 +154,8 @@ def convert(raw, field: Field, *, file: str | None, where: str):
     if kind == "bool":
         if isinstance(raw, bool):
             return raw
+        if isinstance(raw, str) and typed:
+            raise _fail(field, raw, file, where, "a quoted text; write true or false without quotes")
         if isinstance(raw, str) and raw.strip().lower() in ("true", "false"):
             return raw.strip().lower() == "true"
         raise _fail(field, raw, file, where)
@@ -150,14 +171,15 @@ def convert(raw, field: Field, *, file: str | None, where: str):
         if field.choices:
             for s in items:
                 if s not in field.choices:
-                    raise _fail(field, s, file, where)
+                    hint = _close_match(s, field.choices)
+                    raise _fail(field, s, file, where, f"did you mean {hint!r}?" if hint else "")
         return items
     if not isinstance(raw, str):
         raise _fail(field, raw, file, where)
     value = raw.strip()
     if kind == "choice" and value not in field.choices:
-        hint = difflib.get_close_matches(value, field.choices, n=1)
-        raise _fail(field, value, file, where, f"did you mean {hint[0]!r}?" if hint else "")
+        hint = _close_match(value, field.choices)
+        raise _fail(field, value, file, where, f"did you mean {hint!r}?" if hint else "")
     return value
 
 
@@ -180,6 +202,6 @@ def check_known(names, known, *, file: str | None, where: str, what: str = "colu
     known = list(known)
     for name in names:
         if name not in known:
-            hint = difflib.get_close_matches(name, known, n=1, cutoff=0.5)
-            tip = f"; did you mean {hint[0]!r}?" if hint else f"; expected one of: {', '.join(known)}"
+            hint = _close_match(name, known, cutoff=0.5)
+            tip = f"; did you mean {hint!r}?" if hint else f"; expected one of: {', '.join(known)}"
             raise InputError(f"unknown {what} {name!r}{tip}", file=file, where=where)

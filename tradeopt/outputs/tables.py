@@ -53,7 +53,8 @@ def _fmt(key: str, value: float) -> tuple[str, str]:
             if abs(value) >= scale:
                 return f"{value / scale:,.4g}", name
         return f"{value:,.4g}", unit
-    return f"{value:,.2f}", unit
+    text = f"{value:,.2f}"
+    return ("0.00" if text == "-0.00" else text), unit
 
 
 def format_budget(result: dict, *, title: str = "") -> str:
@@ -82,4 +83,4 @@ def format_budget(result: dict, *, title: str = "") -> str:
     if result.get("assumptions"):
         lines.append("assumptions:")
         lines.extend(f"  - {a}" for a in result["assumptions"])
-    return "\n".join(lines)
+    return "\n".join(line.rstrip() for line in lines)
