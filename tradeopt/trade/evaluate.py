@@ -146,21 +146,88 @@ def _objective(objective: str, mass, dc):
     return mass if objective == "mass" else dc
 
 
-def _record(space, br: BlockResult, i: int, objective: str, band_order: int) -> dict:
-    obj = float(_objective(objective, br.mass_kg[i], br.dc_power_w[i]))
-    rec = {"band_id": space.band_id, "g": int(br.g[i]), "a": int(br.a[i]), "m": int(br.m[i]), "c": int(br.c[i]),
-           "margin_db": float(br.margin_db[i]), "mass_kg": float(br.mass_kg[i]),
-           "dc_power_w": float(br.dc_power_w[i]), "bandwidth_hz": float(br.bandwidth_hz[i]),
-           "pfd_excess_db": float(br.pfd_excess_db[i]), "reason": int(br.reason[i]),
-           "shortfall": float(br.shortfall[i]), "n_broken": int(br.n_broken[i]),
-           "ground_diameter_m": float(space.ground["diameter_m"].iloc[int(br.g[i])])}
-    rec["_key"] = (round(obj, 9), -round(rec["margin_db"], 9), band_order, rec["g"], rec["a"], rec["m"], rec["c"])
+@dataclass
+class _Fixed:
+    """The parts of a band's constraints that do not depend on the ground antenna, shaped (A, M, C)."""
+
+    rest_db: np.ndarray  # Y + Z + W + const
+    pfd_excess_db: np.ndarray
+    mass_kg: np.ndarray
+    dc_power_w: np.ndarray
+    code: np.ndarray  # first broken constraint among bandwidth, pfd, mass, dc (0: none)
+    n_broken: np.ndarray
+    objective: np.ndarray
+
+
+def _fixed(space, limits: Limits, objective: str) -> _Fixed:
+    n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
+    shape = (n_a, n_m, n_c)
+    rest = space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :] + space.const_db
+    if space.pfd_worst_db is None:
+        pfd = np.full(shape, -np.inf)
+    else:
+        pfd = space.eirp_am_dbw[:, :, None] + space.pfd_density_c_db[None, None, :] + space.pfd_worst_db
+    mass = np.broadcast_to((space.mass_a[:, None] + space.mass_m[None, :])[:, :, None], shape)
+    dc = np.broadcast_to(space.dc_power_m[None, :, None], shape)
+    checks = [(1, np.broadcast_to(space.bandwidth_c_hz[None, None, :] > space.available_bandwidth_hz, shape)),
+              (3, pfd > 0), (4, mass > limits.max_comm_mass_kg), (5, dc > limits.max_dc_power_w)]
+    code = np.zeros(shape, dtype=np.int8)
+    n_broken = np.zeros(shape, dtype=np.int8)
+    for k, bad in reversed(checks):
+        code[bad] = k
+        n_broken += bad
+    obj = np.ascontiguousarray(_objective(objective, mass, dc))
+    return _Fixed(rest_db=np.ascontiguousarray(rest), pfd_excess_db=pfd, mass_kg=np.ascontiguousarray(mass),
+                  dc_power_w=np.ascontiguousarray(dc), code=code, n_broken=n_broken, objective=obj)
+
+
+def _record(space, fixed: _Fixed, limits: Limits, g: int, a: int, m: int, c: int, band_order: int) -> dict:
+    """Everything known about one design, as a plain dict."""
+    margin = float(space.x_g[g] + fixed.rest_db[a, m, c])
+    margin_bad = limits.required_margin_db - margin > 1e-12
+    code = int(fixed.code[a, m, c])
+    if code == 1:
+        reason = 1
+    elif margin_bad:
+        reason = 2
+    else:
+        reason = code
+    amounts = {0: 0.0, 1: float(space.bandwidth_c_hz[c] - space.available_bandwidth_hz),
+               2: limits.required_margin_db - margin, 3: float(fixed.pfd_excess_db[a, m, c]),
+               4: float(fixed.mass_kg[a, m, c] - limits.max_comm_mass_kg),
+               5: float(fixed.dc_power_w[a, m, c] - limits.max_dc_power_w)}
+    rec = {"band_id": space.band_id, "g": int(g), "a": int(a), "m": int(m), "c": int(c), "margin_db": margin,
+           "mass_kg": float(fixed.mass_kg[a, m, c]), "dc_power_w": float(fixed.dc_power_w[a, m, c]),
+           "bandwidth_hz": float(space.bandwidth_c_hz[c]), "pfd_excess_db": float(fixed.pfd_excess_db[a, m, c]),
+           "reason": reason, "shortfall": amounts[reason], "n_broken": int(fixed.n_broken[a, m, c]) + int(margin_bad),
+           "ground_diameter_m": float(space.ground["diameter_m"].iloc[int(g)])}
+    obj = float(fixed.objective[a, m, c])
+    rec["_key"] = (round(obj, 9), -round(margin, 9), band_order, rec["g"], rec["a"], rec["m"], rec["c"])
     return rec
+
+
+def _merge_front(front: list, new: list) -> list:
+    """Non-dominated records in (mass, DC power, ground diameter); one per point, the largest margin."""
+    import moocore  # noqa: PLC0415
+
+    merged = new + front
+    if not merged:
+        return []
+    merged.sort(key=lambda r: (-r["margin_db"], r["_key"]))
+    arr = np.array([[r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"]] for r in merged])
+    keep = moocore.is_nondominated(arr, keep_weakly=False)
+    return [r for r, k in zip(merged, keep) if k]
 
 
 def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_designs: int = 1 << 20,
            keep_designs: bool = True, n_closest: int = 5) -> SearchResult:
     """Evaluate every design of every band and reduce to the answer.
+
+    Every design's margin is computed (a broadcast sum over the block) and checked
+    against every constraint; the reductions keep, per block, the best ground
+    antenna of each (spacecraft antenna, amplifier, coded modulation) and the best
+    coded modulation of each (ground antenna, spacecraft antenna, amplifier), from
+    which the optimum and the Pareto front follow exactly.
 
     Parameters
     ----------
@@ -173,7 +240,7 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
     max_block_designs : int
         Largest number of designs held in memory at once.
     keep_designs : bool
-        Keep every evaluated design (for ``designs.csv``); off for very large spaces.
+        Keep every evaluated design in detail (for ``designs.csv``); off for very large spaces.
     n_closest : int
         Infeasible designs kept per band, the closest first.
 
@@ -185,56 +252,80 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
 
     res = SearchResult(objective=objective)
     counts = {name: 0 for name in REASONS.values()}
-    front_recs: list = []
+    front: list = []
+    req = limits.required_margin_db - 1e-12
     for order, space in enumerate(spaces):
-        best_key = None
-        best_rec = None
-        closest: list = []
+        fx = _fixed(space, limits, objective)
+        fixed_ok = fx.code == 0
+        # Over the coded modulations that pass the fixed constraints, the largest non-ground part of
+        # the margin of each (a, m): the best modulation of any (g, a, m) is the one that attains it.
+        rest_ok = np.where(fixed_ok, fx.rest_db, -np.inf)
+        c_top = np.argmax(rest_ok, axis=2) if fx.code.size else np.zeros(fx.code.shape[:2], dtype=int)
+        r_top = np.take_along_axis(rest_ok, c_top[..., None], axis=2)[..., 0] if fx.code.size else c_top * 0.0
         dia = space.ground["diameter_m"].to_numpy(float)
+        best_rec = None
         for gs, as_ in iter_blocks(space.shape, max_block_designs):
-            br = evaluate_block(space, limits, gs, as_)
-            n = br.margin_db.size
-            res.designs_evaluated += n
-            codes, freq = np.unique(br.reason, return_counts=True)
-            for code, k in zip(codes, freq):
-                counts[REASONS[int(code)]] += int(k)
-            feas = br.reason == 0
-            res.designs_feasible += int(feas.sum())
+            x = space.x_g[gs]
+            # Every design of the block: its margin, checked against the requirement.
+            margin = x[:, None, None, None] + fx.rest_db[None, as_]
+            n_mok = np.count_nonzero(margin >= req, axis=0)  # (ab, M, C): ground antennas that close
+            del margin
+            res.designs_evaluated += len(x) * fx.rest_db[as_].size
+            code = fx.code[as_]
+            gb = len(x)
+            n_ok = int(np.sum(n_mok[code == 0]))
+            res.designs_feasible += n_ok
+            counts["bandwidth"] += int(gb * np.count_nonzero(code == 1))
+            counts["margin"] += int(np.sum((gb - n_mok)[code != 1]))
+            for k in (0, 3, 4, 5):
+                counts[REASONS[k]] += int(np.sum(n_mok[code == k]))
             if keep_designs:
-                res.designs.append((space, br))
-            if feas.any():
-                fi = np.flatnonzero(feas)
-                obj = _objective(objective, br.mass_kg[fi], br.dc_power_w[fi])
-                # lexicographic: objective, then larger margin, then index order
-                j = fi[np.lexsort((-br.margin_db[fi], np.round(obj, 9)))[0]]
-                rec = _record(space, br, int(j), objective, order)
-                if best_key is None or rec["_key"] < best_key:
-                    best_key, best_rec = rec["_key"], rec
-                # Pareto candidates of this block, merged with the running front.
-                pts = np.column_stack([br.mass_kg[fi], br.dc_power_w[fi], dia[br.g[fi]]])
-                sort = np.argsort(-br.margin_db[fi], kind="stable")
-                pts, fi_sorted = pts[sort], fi[sort]
-                keep = moocore.is_nondominated(pts, keep_weakly=False)
-                recs = [_record(space, br, int(k), objective, order) for k in fi_sorted[keep]]
-                merged = recs + front_recs
-                arr = np.array([[r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"]] for r in merged])
-                margins = np.array([r["margin_db"] for r in merged])
-                sort = np.argsort(-margins, kind="stable")
-                arr = arr[sort]
-                merged = [merged[k] for k in sort]
-                keep = moocore.is_nondominated(arr, keep_weakly=False)
-                front_recs = [r for r, k in zip(merged, keep) if k]
-            if (~feas).any():
-                ii = np.flatnonzero(~feas)
-                short_margin = np.maximum(0.0, limits.required_margin_db - br.margin_db[ii])
-                order_idx = np.lexsort((short_margin, br.n_broken[ii]))[: n_closest]
-                closest.extend(_record(space, br, int(ii[k]), objective, order) for k in order_idx)
-                closest.sort(key=lambda r: (r["n_broken"], max(0.0, limits.required_margin_db - r["margin_db"]),
-                                            r["_key"]))
-                closest = closest[:n_closest]
+                res.designs.append((space, evaluate_block(space, limits, gs, as_)))
+            if n_ok == 0:
+                continue
+            # Best design of the block: per (a, m, c) the largest margin is at the largest X.
+            g_loc = int(np.argmax(x))
+            m_amc = x[g_loc] + fx.rest_db[as_]
+            feas_amc = fixed_ok[as_] & (m_amc >= req)
+            obj = np.where(feas_amc, fx.objective[as_], np.inf).reshape(-1)
+            flat = np.lexsort((-np.where(feas_amc, m_amc, -np.inf).reshape(-1), np.round(obj, 9)))[0]
+            a_i, m_i, c_i = np.unravel_index(flat, m_amc.shape)
+            rec = _record(space, fx, limits, gs.start + g_loc, as_.start + int(a_i), int(m_i), int(c_i), order)
+            if best_rec is None or rec["_key"] < best_rec["_key"]:
+                best_rec = rec
+            # Pareto candidates: each feasible (g, a, m) with its best modulation.
+            m_gam = x[:, None, None] + r_top[as_][None]
+            gi, ai, mi = np.nonzero(m_gam >= req)
+            pts = np.column_stack([fx.mass_kg[as_][ai, mi, 0], fx.dc_power_w[as_][ai, mi, 0], dia[gs][gi]])
+            sort = np.argsort(-m_gam[gi, ai, mi], kind="stable")
+            keep = moocore.is_nondominated(pts[sort], keep_weakly=False)
+            cand = [_record(space, fx, limits, gs.start + int(gi[k]), as_.start + int(ai[k]), int(mi[k]),
+                            int(c_top[as_][ai[k], mi[k]]), order) for k in sort[keep]]
+            front = _merge_front(front, cand)
         res.best_by_band[space.band_id] = best_rec
+        # Closest infeasible designs: for each (a, m, c) the largest-margin ground antenna is the
+        # closest of its row (same fixed constraints, least margin shortfall).
+        closest = []
+        if len(space.x_g) and fx.code.size:
+            g_top = int(np.argmax(space.x_g))
+            margin_top = space.x_g[g_top] + fx.rest_db
+            short = np.maximum(0.0, limits.required_margin_db - margin_top)
+            n_br = fx.n_broken + (limits.required_margin_db - margin_top > 1e-12)
+            over_bw = np.broadcast_to(np.maximum(0.0, space.bandwidth_c_hz - space.available_bandwidth_hz),
+                                      fx.code.shape)
+            infeasible = n_br > 0
+            idx = np.flatnonzero(infeasible.reshape(-1))
+            keys = [np.round(fx.objective.reshape(-1)[idx], 9),
+                    np.maximum(0.0, fx.dc_power_w - limits.max_dc_power_w).reshape(-1)[idx],
+                    np.maximum(0.0, fx.mass_kg - limits.max_comm_mass_kg).reshape(-1)[idx],
+                    np.maximum(0.0, fx.pfd_excess_db).reshape(-1)[idx],
+                    over_bw.reshape(-1)[idx], short.reshape(-1)[idx], n_br.reshape(-1)[idx]]
+            order_idx = idx[np.lexsort(keys)][:n_closest]
+            for flat in order_idx:
+                a_i, m_i, c_i = np.unravel_index(flat, fx.code.shape)
+                closest.append(_record(space, fx, limits, g_top, int(a_i), int(m_i), int(c_i), order))
         res.closest_by_band[space.band_id] = closest
-    front_recs.sort(key=lambda r: (r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"], r["_key"]))
-    res.pareto = front_recs
+    front.sort(key=lambda r: (r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"], r["_key"]))
+    res.pareto = front
     res.reason_counts = counts
     return res
