@@ -15,17 +15,24 @@ __all__ = ["main", "build_parser"]
 EXIT_BAD_INPUT = 2
 
 
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors are one line on stderr with exit status 2."""
+
+    def error(self, message):  # noqa: D401
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: {message} (see '{self.prog} --help')\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser (kept importable for documentation and tests)."""
     from . import __version__
 
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="tradeopt",
         description="Spacecraft link trades: ITU-R link budgets, catalog design-space search, "
                     "Pareto fronts, band comparison and dish-size curves. Design-stage estimates only.",
     )
     parser.add_argument("--version", action="version", version=f"tradeopt {__version__}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
     p = sub.add_parser("budget", help="term-by-term budget of one link file (TOML)")
     p.add_argument("link_file", metavar="LINK.toml", help="link file; see README, 'Link files'")
@@ -50,7 +57,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print JSON")
 
     p = sub.add_parser("catalog", help="catalog tools")
-    csub = p.add_subparsers(dest="catalog_command", metavar="ACTION")
+    csub = p.add_subparsers(dest="catalog_command", metavar="ACTION", parser_class=_Parser)
     c = csub.add_parser("check", help="validate every catalog CSV file")
     c.add_argument("--catalogs", metavar="DIR", help="catalog folder (default: the bundled catalogs/)")
     return parser

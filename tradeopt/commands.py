@@ -5,7 +5,7 @@ import json
 import re
 from pathlib import Path
 
-__all__ = ["run_optimize"]
+__all__ = ["run_optimize", "run_contacts", "run_demand", "contacts_record", "demand_record"]
 
 
 def _default_out(name: str) -> Path:
@@ -30,4 +30,122 @@ def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=Fa
         print(json.dumps(clean_for_json(summary_dict(res, str(target))), indent=2, sort_keys=True))
     else:
         print(summary_text(res, str(target)))
+    return 0
+
+
+def _iso(t) -> str:
+    import numpy as np
+
+    return np.datetime_as_string(np.datetime64(t, "ms"), unit="ms") + "Z"
+
+
+def contacts_record(scenario, plan) -> dict:
+    """The JSON record of ``tradeopt contacts``."""
+    sites = []
+    for i, s in enumerate(scenario.sites):
+        st = plan.stats.loc[i]
+        p = plan.passes[plan.passes["site_index"] == i]
+        hist = {f"{plan.bin_edges_deg[k]:g}-{plan.bin_edges_deg[k + 1]:g}": float(plan.histogram_s_per_day[i, k])
+                for k in range(len(plan.bin_edges_deg) - 1)}
+        sites.append({
+            "id": s.id, "name": s.name, "latitude_deg": s.latitude_deg, "longitude_deg": s.longitude_deg,
+            "altitude_m": s.altitude_m, "min_elevation_deg": s.min_elevation_deg,
+            "contacts_per_day": float(st["contacts_per_day"]), "contact_s_per_day": float(st["contact_s_per_day"]),
+            "mean_gap_s": float(st["mean_gap_s"]), "max_gap_s": float(st["max_gap_s"]),
+            "elevation_histogram_s_per_day": hist,
+            "passes": [{"start_utc": _iso(r.start_utc), "end_utc": _iso(r.end_utc),
+                        "max_elevation_deg": float(r.max_elevation_deg), "duration_s": float(r.duration_s)}
+                       for r in p.itertuples()],
+        })
+    net = plan.network.iloc[0]
+    orbit = {"kind": plan.kind}
+    if plan.tle is not None:
+        orbit["tle"] = list(plan.tle)
+    if plan.kind == "geostationary":
+        orbit["geostationary_longitude_deg"] = scenario.orbit["geostationary_longitude_deg"]
+    return {"scenario": scenario.name, "start_utc": _iso(plan.start_utc), "days": plan.days, "orbit": orbit,
+            "sites": sites,
+            "network": {"contacts_per_day": float(net["contacts_per_day"]),
+                        "contact_s_per_day": float(net["contact_s_per_day"]),
+                        "mean_gap_s": float(net["mean_gap_s"]), "max_gap_s": float(net["max_gap_s"])}}
+
+
+def run_contacts(*, scenario_path=None, days=None, as_json=False) -> int:
+    """``tradeopt contacts``: passes, gaps and elevation histograms per site."""
+    from .inputs.scenario import load_scenario
+    from .outputs.provenance import clean_for_json, versions
+    from .trade.schedule import contact_plan
+
+    scenario = load_scenario(scenario_path)
+    plan = contact_plan(scenario, days=days)
+    rec = contacts_record(scenario, plan)
+    if as_json:
+        rec["versions"] = versions(with_recommendations=False)
+        print(json.dumps(clean_for_json(rec), indent=2, sort_keys=True))
+        return 0
+    lines = [f"tradeopt contacts: {scenario.name}, {rec['days']:g} days from {rec['start_utc']} ({plan.kind} orbit)"]
+    if plan.tle:
+        lines += [f"  TLE propagated: {plan.tle[0]}", f"                 {plan.tle[1]}"]
+    lines.append(f"  {'site':<18} {'mask':>6} {'passes/day':>11} {'contact/day':>12} {'mean gap':>10} {'worst gap':>10}")
+    for s in rec["sites"]:
+        lines.append(f"  {s['id']:<18} {s['min_elevation_deg']:>5g}° {s['contacts_per_day']:>11.2f} "
+                     f"{s['contact_s_per_day'] / 60:>9.1f} min {s['mean_gap_s'] / 3600:>8.2f} h "
+                     f"{s['max_gap_s'] / 3600:>8.2f} h")
+    n = rec["network"]
+    lines.append(f"  {'all sites (union)':<18} {'':>6} {n['contacts_per_day']:>11.2f} {n['contact_s_per_day'] / 60:>9.1f} min "
+                 f"{n['mean_gap_s'] / 3600:>8.2f} h {n['max_gap_s'] / 3600:>8.2f} h")
+    lines.append("  time per day in each elevation bin [min]:")
+    edges = plan.bin_edges_deg
+    head = " ".join(f"{edges[k]:g}-{edges[k + 1]:g}".rjust(8) for k in range(len(edges) - 1))
+    lines.append(f"  {'':<18} {head}")
+    for i, s in enumerate(scenario.sites):
+        row = " ".join(f"{v / 60:8.1f}" for v in plan.histogram_s_per_day[i])
+        lines.append(f"  {s.id:<18} {row}")
+    print("\n".join(lines))
+    return 0
+
+
+def demand_record(scenario, dplan) -> dict:
+    """The JSON record of ``tradeopt demand``."""
+    table = dplan.result.table
+    return {"scenario": scenario.name,
+            "steps": [{"step": r.step, "factor": float(r.factor), "bits_per_day": float(r.bits_per_day),
+                       "note": r.note} for r in table.itertuples()],
+            "information_bits_per_day": dplan.result.information_bits_per_day,
+            "channel_bits_per_day": dplan.result.channel_bits_per_day,
+            "frame_efficiency": dplan.frame_efficiency, "arq_efficiency": dplan.arq_efficiency,
+            "compression": dplan.compression, "quantization": dplan.quantization}
+
+
+def run_demand(*, scenario_path=None, as_json=False) -> int:
+    """``tradeopt demand``: from the instruments to the information volume per day."""
+    from .inputs.scenario import load_scenario
+    from .outputs.provenance import clean_for_json, versions
+    from .trade.schedule import demand_plan
+
+    scenario = load_scenario(scenario_path)
+    dplan = demand_plan(scenario)
+    rec = demand_record(scenario, dplan)
+    if as_json:
+        rec["versions"] = versions(with_recommendations=False)
+        print(json.dumps(clean_for_json(rec), indent=2, sort_keys=True))
+        return 0
+    lines = [f"tradeopt demand: {scenario.name}"]
+    lines.append(f"  {'step':<28} {'factor':>8} {'Gbit/day':>12}  note")
+    for s in rec["steps"]:
+        lines.append(f"  {s['step']:<28} {s['factor']:>8.4g} {s['bits_per_day'] / 1e9:>12.4f}  {s['note']}")
+    lines.append(f"  information volume per day: {rec['information_bits_per_day'] / 1e9:.4f} Gbit "
+                 "(what the link's information rate must carry)")
+    for c in dplan.compression:
+        if c["measured"]:
+            meas = ", ".join(f"{k} {v:.3f}" for k, v in sorted(c["measured"].items()))
+            lines.append(f"  {c['name']}: compression measured on the sample file: {meas}; using {c['codec']}")
+    for q in dplan.quantization:
+        extra = ""
+        if q["required_snr_db"] is not None:
+            verdict = "meets" if q["meets"] else f"does NOT meet (needs {q['bits_needed']} bits)"
+            extra = f"; {verdict} the required {q['required_snr_db']:g} dB"
+        lines.append(f"  {q['name']}: {q['bits_per_sample']:g}-bit quantization SNR {q['quantization_snr_db']:.2f} dB "
+                     f"(6.02 N + 1.76){extra}")
+    print("\n".join(lines))
     return 0

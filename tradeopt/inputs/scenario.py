@@ -42,10 +42,47 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
     ],
     "orbit": [
         Field("altitude_m", unit="m", required=False, low=100e3, high=100e6),
+        Field("semi_major_axis_m", unit="m", required=False, low=6.4e6, high=1e8),
+        Field("eccentricity", required=False, low=0.0, high=1.0, high_open=True),
+        Field("inclination_deg", unit="deg", required=False, low=0.0, high=180.0),
+        Field("raan_deg", unit="deg", required=False, default=0.0, low=-360.0, high=360.0),
+        Field("argument_of_perigee_deg", unit="deg", required=False, default=0.0, low=-360.0, high=360.0),
+        Field("mean_anomaly_deg", unit="deg", required=False, default=0.0, low=-360.0, high=360.0),
+        Field("epoch_utc", "str", required=False),
+        Field("tle_line1", "str", required=False),
+        Field("tle_line2", "str", required=False),
+        Field("geostationary_longitude_deg", unit="deg", required=False, low=-180.0, high=360.0),
         Field("range_m", unit="m", required=False, **_pos),
     ],
     "requirement": [
         Field("rate_bps", unit="bit/s", required=False, **_pos),
+        Field("daily_volume_bits", unit="bit/day", required=False, **_pos),
+        Field("volume_from_demand", "bool", required=False, default=False),
+        Field("storage_bits", unit="bit", required=False, **_pos),
+    ],
+    "contacts": [
+        Field("start_utc", "str", required=False, default="2027-01-01T00:00:00"),
+        Field("days", unit="day", required=False, default=7.0, low=0.01, high=3660.0),
+        Field("step_s", unit="s", required=False, default=10.0, low=0.5, high=600.0),
+        Field("elevation_bin_edges_deg", "float_list", required=False),
+    ],
+    "framing": [
+        Field("frame_data_bytes", unit="byte", required=False, default=1115.0, low=1.0, high=1e6),
+        Field("header_bytes", unit="byte", required=False, default=6.0, low=0.0, high=1e5),
+        Field("trailer_bytes", unit="byte", required=False, default=2.0, low=0.0, high=1e5),
+    ],
+    "arq": [
+        Field("scheme", "choice", choices=("none", "stop-and-wait", "go-back-n", "selective-repeat"),
+              required=False, default="none"),
+        Field("frame_error_rate", required=False, default=0.0, low=0.0, high=1.0, high_open=True),
+        Field("window_frames", "int", required=False, low=1, high=1e9),
+    ],
+    "coding": [
+        Field("code_rate", required=False, default=1.0, low=0.0, high=1.0, low_open=True),
+    ],
+    "network": [
+        Field("rate_bps", unit="bit/s", required=False, **_pos),
+        Field("slot_s", unit="s", required=False, default=30.0, low=1.0, high=3600.0),
     ],
     "link": [
         Field("implementation_loss_db", unit="dB", required=False, default=0.0, low=0.0, high=20.0),
@@ -75,8 +112,23 @@ _SITE_FIELDS = [
     Field("altitude_m", unit="m", low=-500.0, high=6000.0),
     Field("min_elevation_deg", unit="deg", low=0.0, high=90.0, high_open=True),
     Field("required", "bool", required=False, default=True),
+    Field("cost_per_year", unit="per year", required=False, low=0.0),
 ]
-_TOP = list(SCENARIO_SCHEMA) + ["sites", "bandwidth_limits_hz"]
+_PAYLOAD_FIELDS = [
+    Field("name", "str"),
+    Field("raw_rate_bps", unit="bit/s", required=False, **_pos),
+    Field("signal_bandwidth_hz", unit="Hz", required=False, **_pos),
+    Field("sampling_rate_hz", unit="Hz", required=False, **_pos),
+    Field("sampling_factor", required=False, default=2.2, low=2.0, high=100.0),
+    Field("bits_per_sample", unit="bit", required=False, low=1.0, high=64.0),
+    Field("required_snr_db", unit="dB", required=False, low=0.0, high=400.0),
+    Field("channels", "int", required=False, default=1, low=1, high=1e6),
+    Field("duty_cycle", required=False, default=1.0, low=0.0, high=1.0, low_open=True),
+    Field("compression_ratio", required=False, low=0.0, low_open=True, high=1e4),
+    Field("compression_sample_file", "str", required=False),
+    Field("compression_codec", "choice", choices=("zlib", "bz2", "lzma", "best"), required=False, default="best"),
+]
+_TOP = list(SCENARIO_SCHEMA) + ["sites", "bandwidth_limits_hz", "payloads"]
 
 
 @dataclass(frozen=True)
@@ -90,6 +142,7 @@ class Site:
     altitude_m: float
     min_elevation_deg: float
     required: bool = True
+    cost_per_year: float | None = None
 
 
 @dataclass
@@ -119,8 +172,32 @@ class Scenario:
     options: dict = field(default_factory=dict)
     dish_curve_max_diameter_m: float = 15.0
     dish_curve_step_m: float = 0.25
+    orbit: dict = field(default_factory=dict)
+    requirement: dict = field(default_factory=dict)
+    contacts: dict = field(default_factory=dict)
+    payloads: list = field(default_factory=list)
+    framing: dict = field(default_factory=dict)
+    arq: dict = field(default_factory=dict)
+    coding: dict = field(default_factory=dict)
+    network: dict = field(default_factory=dict)
+    site_geometry: dict = field(default_factory=dict)  # site id -> (elevation_deg, range_m) from propagation
+    base_dir: Path | None = None
     file: str = DEFAULT_SCENARIO_NAME
     raw: dict = field(default_factory=dict)
+
+    @property
+    def orbit_kind(self) -> str:
+        """``"elements"``, ``"tle"``, ``"geostationary"``, ``"circular"`` (altitude only) or ``"range"``."""
+        o = self.orbit
+        if o.get("tle_line1"):
+            return "tle"
+        if o.get("geostationary_longitude_deg") is not None:
+            return "geostationary"
+        if o.get("range_m") is not None:
+            return "range"
+        if o.get("inclination_deg") is not None:
+            return "elements"
+        return "circular"
 
     @property
     def percent_of_year(self) -> float:
@@ -133,7 +210,7 @@ def _table(data: dict, name: str, file: str) -> dict:
     if not isinstance(raw, dict):
         raise InputError(f"expected a table [{name}]", file=file, where=f"key {name}")
     check_known(raw.keys(), [f.name for f in SCENARIO_SCHEMA[name]], file=file, where=f"table [{name}]", what="key")
-    return {f.name: convert(raw.get(f.name, MISSING), f, file=file, where=f"key [{name}] {f.name}")
+    return {f.name: convert(raw.get(f.name, MISSING), f, file=file, where=f"key [{name}] {f.name}", typed=True)
             for f in SCENARIO_SCHEMA[name]}
 
 
@@ -178,12 +255,34 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                          f"{exc.model} ({lo:g} to {hi:g}); choose a value in that range", file=file,
                          where="key [scenario] availability_percent") from None
 
-    given = [k for k in ("altitude_m", "range_m") if orbit[k] is not None]
-    if len(given) != 1:
-        raise InputError("give exactly one of altitude_m (an orbit) or range_m (a fixed range)", file=file,
-                         where="table [orbit]")
-    if req["rate_bps"] is None:
-        raise InputError("missing; give the information rate rate_bps", file=file, where="key [requirement] rate_bps")
+    _check_orbit(orbit, file)
+    contacts = _table(data, "contacts", file)
+    framing = _table(data, "framing", file)
+    arq = _table(data, "arq", file)
+    coding = _table(data, "coding", file)
+    network = _table(data, "network", file)
+    edges = contacts["elevation_bin_edges_deg"]
+    if edges is not None:
+        if len(edges) < 2 or any(b <= a for a, b in zip(edges, edges[1:])) or edges[0] < 0 or edges[-1] > 90:
+            raise InputError("expected at least two increasing elevations between 0 and 90 deg", file=file,
+                             where="key [contacts] elevation_bin_edges_deg")
+    _check_time(contacts["start_utc"], file, "key [contacts] start_utc")
+    if orbit["epoch_utc"] is not None:
+        _check_time(orbit["epoch_utc"], file, "key [orbit] epoch_utc")
+    volume_keys = [k for k in ("rate_bps", "daily_volume_bits") if req[k] is not None]
+    if req["volume_from_demand"]:
+        volume_keys.append("volume_from_demand")
+    if len(volume_keys) != 1:
+        raise InputError("give exactly one of rate_bps, daily_volume_bits or volume_from_demand = true", file=file,
+                         where="table [requirement]")
+    if req["rate_bps"] is None and orbit["altitude_m"] is None and orbit["semi_major_axis_m"] is None \
+            and not orbit["tle_line1"] and orbit["geostationary_longitude_deg"] is None:
+        raise InputError("a daily volume needs contact time: give an orbit (elements, a TLE or a geostationary "
+                         "longitude), not only range_m", file=file, where="table [orbit]")
+    payloads = _payloads(data, file, base_dir)
+    if req["volume_from_demand"] and not payloads:
+        raise InputError("volume_from_demand = true needs at least one [[payloads]] table", file=file,
+                         where="key [requirement] volume_from_demand")
 
     raw_sites = data.get("sites")
     if not isinstance(raw_sites, list) or not raw_sites:
@@ -195,7 +294,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         if not isinstance(s, dict):
             raise InputError("expected a table", file=file, where=where_t)
         check_known(s.keys(), [f.name for f in _SITE_FIELDS], file=file, where=where_t, what="key")
-        v = {f.name: convert(s.get(f.name, MISSING), f, file=file, where=f"key {where_t} {f.name}")
+        v = {f.name: convert(s.get(f.name, MISSING), f, file=file, where=f"key {where_t} {f.name}", typed=True)
              for f in _SITE_FIELDS}
         if v["id"] in seen:
             raise InputError(f"duplicate site id {v['id']!r}", file=file, where=f"key {where_t} id")
@@ -206,6 +305,9 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                              "P.618-13 scintillation are stated; raise the mask", file=file,
                              where=f"key {where_t} min_elevation_deg")
         v["name"] = v["name"] or v["id"]
+        if v["min_elevation_deg"] >= 90.0:
+            raise InputError("expected an elevation mask below 90 deg", file=file,
+                             where=f"key {where_t} min_elevation_deg")
         sites.append(Site(**v))
     if not any(s.required for s in sites):
         raise InputError("no site has required = true; at least one site must close the link", file=file,
@@ -243,20 +345,130 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         if b not in sc["bands"]:
             raise InputError(f"band {b!r} is not one of the scenario's bands ({', '.join(sc['bands'])})", file=file,
                              where=f"key [bandwidth_limits_hz] {b}")
-        limits[b] = convert(value, Field(b, unit="Hz", **_pos), file=file, where=f"key [bandwidth_limits_hz] {b}")
+        limits[b] = convert(value, Field(b, unit="Hz", **_pos), file=file, where=f"key [bandwidth_limits_hz] {b}",
+                            typed=True)
 
     return Scenario(
         name=sc["name"], description=sc["description"], objective=sc["objective"], direction=sc["direction"],
         availability_percent=sc["availability_percent"], required_margin_db=sc["required_margin_db"],
         band_ids=list(sc["bands"]), sites=sites, catalog=catalog, rate_bps=req["rate_bps"],
-        altitude_m=orbit["altitude_m"], range_m=orbit["range_m"],
+        altitude_m=_altitude_of(orbit), range_m=orbit["range_m"],
         implementation_loss_db=link["implementation_loss_db"], polarization_loss_db=link["polarization_loss_db"],
         other_losses_db=link["other_losses_db"], polarization_tilt_deg=link["polarization_tilt_deg"],
         max_comm_mass_kg=craft["max_comm_mass_kg"], max_dc_power_w=craft["max_dc_power_w"],
         power_mass_kg_per_w=craft["power_mass_kg_per_w"], bandwidth_limits_hz=limits,
         options={k: opts[k] for k in ("ground_antennas", "spacecraft_antennas", "amplifiers", "modcods")},
         dish_curve_max_diameter_m=opts["dish_curve_max_diameter_m"], dish_curve_step_m=opts["dish_curve_step_m"],
-        file=file, raw=data)
+        orbit=orbit, requirement=req, contacts=contacts, payloads=payloads, framing=framing, arq=arq,
+        coding=coding, network=network, base_dir=base_dir, file=file, raw=data)
+
+
+def _check_time(text: str, file: str, where: str) -> None:
+    import numpy as np  # noqa: PLC0415
+
+    try:
+        np.datetime64(text.replace("Z", ""), "ns")
+    except ValueError:
+        raise InputError(f"expected an ISO 8601 UTC time like 2027-01-01T00:00:00, got {text!r}", file=file,
+                         where=where) from None
+
+
+def _altitude_of(orbit: dict) -> float | None:
+    """Altitude [m] of a circular orbit for the spherical-Earth range (None for other kinds)."""
+    from ..physics.units import EARTH_RADIUS_M  # noqa: PLC0415
+
+    if orbit["altitude_m"] is not None:
+        return orbit["altitude_m"]
+    if orbit["semi_major_axis_m"] is not None:
+        return orbit["semi_major_axis_m"] - EARTH_RADIUS_M
+    return None
+
+
+def _check_orbit(orbit: dict, file: str) -> None:
+    """Exactly one orbit form, with the keys it needs and only those."""
+    forms = {
+        "elements": orbit["altitude_m"] is not None or orbit["semi_major_axis_m"] is not None,
+        "tle": bool(orbit["tle_line1"] or orbit["tle_line2"]),
+        "geostationary": orbit["geostationary_longitude_deg"] is not None,
+        "range": orbit["range_m"] is not None,
+    }
+    given = [k for k, v in forms.items() if v]
+    if len(given) != 1:
+        raise InputError("give exactly one orbit: altitude_m or semi_major_axis_m (with elements), tle_line1 and "
+                         "tle_line2, geostationary_longitude_deg, or range_m", file=file, where="table [orbit]")
+    kind = given[0]
+    if kind == "elements":
+        if orbit["altitude_m"] is not None and orbit["semi_major_axis_m"] is not None:
+            raise InputError("give altitude_m or semi_major_axis_m, not both", file=file, where="table [orbit]")
+        e = orbit["eccentricity"] or 0.0
+        if e > 0.0 and orbit["inclination_deg"] is None:
+            raise InputError("an elliptical orbit needs inclination_deg (and its other elements)", file=file,
+                             where="key [orbit] inclination_deg")
+        from ..physics.units import EARTH_RADIUS_M  # noqa: PLC0415
+
+        a = orbit["semi_major_axis_m"] if orbit["semi_major_axis_m"] is not None else EARTH_RADIUS_M + orbit["altitude_m"]
+        perigee = a * (1.0 - e) - EARTH_RADIUS_M
+        if perigee < 100e3:
+            raise InputError(f"perigee altitude {perigee / 1e3:.0f} km is below 100 km (below the surface when "
+                             "negative); lower the eccentricity or raise the orbit", file=file,
+                             where="key [orbit] eccentricity")
+    elif kind == "tle":
+        if not (orbit["tle_line1"] and orbit["tle_line2"]):
+            raise InputError("a TLE needs both tle_line1 and tle_line2", file=file, where="table [orbit]")
+        from ..mission.orbit import satrec_from_tle  # noqa: PLC0415
+
+        try:
+            satrec_from_tle(orbit["tle_line1"], orbit["tle_line2"])
+        except ValueError as exc:
+            raise InputError(str(exc), file=file, where="key [orbit] tle_line1/tle_line2") from None
+    others = {"elements": (), "tle": ("eccentricity", "inclination_deg", "epoch_utc"),
+              "geostationary": ("eccentricity", "inclination_deg", "epoch_utc"),
+              "range": ("eccentricity", "inclination_deg", "epoch_utc")}[kind]
+    for k in others:
+        if orbit[k] is not None:
+            raise InputError(f"{k} does not apply to this orbit form ({kind})", file=file, where=f"key [orbit] {k}")
+
+
+def _payloads(data: dict, file: str, base_dir: Path | None) -> list:
+    raw = data.get("payloads", [])
+    if not isinstance(raw, list):
+        raise InputError("expected [[payloads]] tables", file=file, where="table [[payloads]]")
+    out = []
+    for i, p in enumerate(raw, start=1):
+        where_t = f"[[payloads]] #{i}"
+        if not isinstance(p, dict):
+            raise InputError("expected a table", file=file, where=where_t)
+        check_known(p.keys(), [f.name for f in _PAYLOAD_FIELDS], file=file, where=where_t, what="key")
+        v = {f.name: convert(p.get(f.name, MISSING), f, file=file, where=f"key {where_t} {f.name}", typed=True)
+             for f in _PAYLOAD_FIELDS}
+        if v["raw_rate_bps"] is None and (v["bits_per_sample"] is None or
+                                          (v["signal_bandwidth_hz"] is None and v["sampling_rate_hz"] is None)):
+            raise InputError("give raw_rate_bps, or bits_per_sample with signal_bandwidth_hz or sampling_rate_hz",
+                             file=file, where=where_t)
+        if v["raw_rate_bps"] is not None and (v["bits_per_sample"] is not None or v["signal_bandwidth_hz"] is not None
+                                              or v["sampling_rate_hz"] is not None):
+            raise InputError("give raw_rate_bps or the sampling parameters, not both", file=file, where=where_t)
+        if v["compression_ratio"] is not None and v["compression_sample_file"] is not None:
+            raise InputError("give compression_ratio or compression_sample_file, not both", file=file, where=where_t)
+        if v["compression_sample_file"] is not None:
+            sample = Path(v["compression_sample_file"])
+            if not sample.is_absolute() and base_dir is not None:
+                sample = base_dir / sample
+            if not sample.is_file():
+                raise InputError(f"sample file {str(sample)!r} does not exist; give the path of a representative "
+                                 "data file (relative to the scenario) to measure its compression", file=file,
+                                 where=f"key {where_t} compression_sample_file")
+            if sample.stat().st_size == 0:
+                raise InputError(f"sample file {str(sample)!r} is empty; a compression ratio cannot be measured",
+                                 file=file, where=f"key {where_t} compression_sample_file")
+            v["compression_sample_file"] = str(sample)
+        if v["sampling_rate_hz"] is not None and v["signal_bandwidth_hz"] is not None \
+                and v["sampling_rate_hz"] < 2.0 * v["signal_bandwidth_hz"]:
+            raise InputError(f"sampling_rate_hz {v['sampling_rate_hz']:g} is below 2 x signal_bandwidth_hz and "
+                             "would alias; raise it (2.2 x bandwidth is common practice)", file=file,
+                             where=f"key {where_t} sampling_rate_hz")
+        out.append(v)
+    return out
 
 
 def load_scenario(path: str | Path | None = None) -> Scenario:
@@ -264,7 +476,8 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
     if path is None:
         import tomllib  # noqa: PLC0415
 
-        text = resources.files("tradeopt.data").joinpath("default_scenario.toml").read_text(encoding="utf-8")
-        return scenario_from_dict(tomllib.loads(text), file=DEFAULT_SCENARIO_NAME)
+        data_dir = resources.files("tradeopt.data")
+        text = data_dir.joinpath("default_scenario.toml").read_text(encoding="utf-8")
+        return scenario_from_dict(tomllib.loads(text), file=DEFAULT_SCENARIO_NAME, base_dir=Path(str(data_dir)))
     data = read_toml(path)
     return scenario_from_dict(data, file=str(path), base_dir=Path(path).parent)

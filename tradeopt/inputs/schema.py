@@ -72,6 +72,8 @@ class Field:
             return "one of " + ", ".join(repr(c) for c in self.choices)
         if self.kind == "bool":
             return "true or false"
+        if self.kind == "float_list":
+            return "a list of numbers" + (f" in {self.unit}" if self.unit else "")
         if self.kind == "str_list":
             return "a list of names" + (" from " + ", ".join(repr(c) for c in self.choices) if self.choices else "")
         return "a non-empty text"
@@ -159,6 +161,15 @@ def convert(raw, field: Field, *, file: str | None, where: str, typed: bool = Fa
         if isinstance(raw, str) and raw.strip().lower() in ("true", "false"):
             return raw.strip().lower() == "true"
         raise _fail(field, raw, file, where)
+    if kind == "float_list":
+        if not isinstance(raw, list) or not raw:
+            raise _fail(field, raw, file, where)
+        values = []
+        for item in raw:
+            if isinstance(item, bool) or not isinstance(item, (int, float)) or not math.isfinite(float(item)):
+                raise _fail(field, item, file, where)
+            values.append(float(item))
+        return values
     if kind == "str_list":
         if isinstance(raw, str):
             items = [s.strip() for s in raw.replace(";", " ").split()]

@@ -84,7 +84,10 @@ def summary_dict(res, results_dir: str) -> dict:
     best = res.search.best
     out = {"scenario": res.scenario.name, "objective": res.objective, "feasible": best is not None,
            "designs_evaluated": res.search.designs_evaluated, "designs_feasible": res.search.designs_feasible,
-           "results_dir": results_dir, "best": None, "best_by_band": {}, "closest": []}
+           "results_dir": results_dir, "best": None, "best_by_band": {}, "closest": [],
+           "mission": mission_record(res)}
+    if res.search.best is not None and not res.feasible:
+        out["feasible"] = False
     if best is not None:
         space = res.space(best["band_id"])
         out["best"] = _best_record(res, space, best)
@@ -97,6 +100,24 @@ def summary_dict(res, results_dir: str) -> dict:
         allc.sort(key=lambda t: (t[1]["n_broken"], max(0.0, req - t[1]["margin_db"]), t[1]["_key"]))
         out["closest"] = [dict(_design_row(res, space, r), misses=misses_text(space, r, res.limits))
                           for space, r in allc[:5]]
+    return out
+
+
+def mission_record(res) -> dict:
+    """Rate source, daily volume, contact time, storage check, volume gains and network choice."""
+    m = res.mission
+    out = {"rate_bps": res.scenario.rate_bps, "rate_source": getattr(m, "rate_source", "given")}
+    if m is None:
+        return out
+    if m.daily_volume_bits is not None:
+        out["daily_volume_bits"] = m.daily_volume_bits
+        out["contact_s_per_day"] = m.contact_s_per_day
+    if m.storage is not None:
+        out["storage"] = m.storage
+    if res.volume:
+        out["volume"] = {k: v for k, v in res.volume.items() if k != "bin_edges_deg"}
+    if m.network is not None:
+        out["network"] = m.network
     return out
 
 
@@ -151,6 +172,28 @@ def summary_text(res, results_dir: str) -> str:
         if curve["knee_diameter_m"] is not None:
             lines.append(f"  {band_id}: a ground dish beyond {curve['knee_diameter_m']:g} m stops paying "
                          f"(within 2 % of the best {res.objective} on the curve)")
+    m = s["mission"]
+    if m.get("rate_source") in ("demand", "daily_volume_bits"):
+        lines.append(f"  rate from the daily volume: {m['daily_volume_bits'] / 1e9:.4g} Gbit/day over "
+                     f"{m['contact_s_per_day'] / 60:.1f} min/day of contact -> {m['rate_bps'] / 1e6:.4g} Mbit/s")
+    if "storage" in m:
+        st = m["storage"]
+        verdict = "fits" if st["fits"] else "DOES NOT FIT"
+        lines.append(f"  onboard storage {verdict}: {st['needed_bits'] / 1e9:.4g} Gbit generated during the worst gap "
+                     f"of {st['worst_gap_s'] / 3600:.2f} h, {st['storage_bits'] / 1e9:.4g} Gbit available")
+    if "volume" in m:
+        v = m["volume"]
+        lines.append(f"  best design delivers {v['fixed_rate_bits_per_day'] / 1e9:.4g} Gbit/day at a fixed rate; "
+                     f"best fixed rate (closing from {v['best_fixed_threshold_deg']:g} deg) "
+                     f"{v['best_fixed_bits_per_day'] / 1e9:.4g}; variable rate (ACM) "
+                     f"{v['variable_rate_bits_per_day'] / 1e9:.4g} Gbit/day (+{v['variable_gain_percent']:.1f} %)")
+    if "network" in m:
+        n = m["network"]
+        if n["status"] == "optimal":
+            lines.append(f"  cheapest ground network for the volume: {', '.join(n['chosen'])} "
+                         f"({n['cost_per_year']:,.0f} per year, {n['delivered_bits_per_day'] / 1e9:.4g} Gbit/day)")
+        else:
+            lines.append(f"  ground network: {n['status']}: {n['message']}")
     lines.append(f"  results: {results_dir}")
     return "\n".join(lines)
 
@@ -278,12 +321,24 @@ def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str |
         files["power_sizing.csv"] = _csv(power, vline)
     if res.attenuation:
         files["attenuation.csv"] = _csv(pd.DataFrame(res.attenuation), vline)
+    if res.volume:
+        vrows = [{"site_id": r["site_id"], "contact_s_per_day": r["contact_s_per_day"],
+                  "fixed_rate_bits_per_day": r["fixed_rate_bits_per_day"],
+                  "variable_rate_bits_per_day": r["variable_rate_bits_per_day"]} for r in res.volume["sites"]]
+        files["volume.csv"] = _csv(pd.DataFrame(vrows), vline)
+    if res.mission is not None and res.mission.plan is not None:
+        from ..commands import contacts_record  # noqa: PLC0415
+
+        files["contacts.json"] = json.dumps(clean_for_json(contacts_record(res.scenario, res.mission.plan)),
+                                            indent=2, sort_keys=True) + "\n"
+    if res.mission is not None and res.mission.demand is not None:
+        files["demand.csv"] = _csv(res.mission.demand.result.table, vline)
     if res.elevation_margin:
         files["margin_vs_elevation.csv"] = _csv(pd.DataFrame(res.elevation_margin), vline)
 
     summary = summary_dict(res, results_dir)
     best_json = {"scenario": res.scenario.name, "scenario_file": res.scenario.file, "objective": res.objective,
-                 "feasible": summary["feasible"], "best": summary["best"],
+                 "feasible": summary["feasible"], "best": summary["best"], "mission": summary["mission"],
                  "designs_evaluated": summary["designs_evaluated"], "designs_feasible": summary["designs_feasible"],
                  "closest": summary["closest"], "budget": None, "budgets_by_site": {},
                  "notes": sorted(set(res.notes)), "cautions": CAUTIONS, "versions": ver}

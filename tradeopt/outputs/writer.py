@@ -55,9 +55,17 @@ def write_results(out_dir: str | os.PathLike, files: dict[str, str | bytes]) -> 
     path : Path
         The target folder.
     """
+    from ..inputs.errors import InputError  # noqa: PLC0415
+
     target = Path(out_dir)
+    if target.exists() and not target.is_dir():
+        raise InputError("exists and is not a folder; give a folder path for the results", file=str(target))
     parent = target.parent
-    parent.mkdir(parents=True, exist_ok=True)
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create the results folder here ({exc.strerror or exc.__class__.__name__})",
+                         file=str(target)) from None
     _clean_stale(parent)
     tmp = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-", dir=parent))
     try:
@@ -79,6 +87,10 @@ def write_results(out_dir: str | os.PathLike, files: dict[str, str | bytes]) -> 
             shutil.rmtree(old, ignore_errors=True)
         else:
             os.rename(tmp, target)
+    except OSError as exc:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise InputError(f"cannot write the results ({exc.strerror or exc.__class__.__name__})",
+                         file=str(target)) from None
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise

@@ -14,6 +14,7 @@ from ..physics import path, propagation
 from .evaluate import Limits, SearchResult, search
 from .linkcalc import compute_link
 from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_m
+from .schedule import network_choice
 from .space import BandSpace, build_band_space, site_terms_for_apertures
 
 __all__ = ["TradeResult", "optimize", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
@@ -43,11 +44,14 @@ class TradeResult:
     attenuation: list = field(default_factory=list)  # rows for attenuation vs availability
     elevation_margin: list = field(default_factory=list)  # rows for margin vs elevation
     notes: list = field(default_factory=list)
+    mission: object = None  # tradeopt.trade.schedule.MissionContext
+    volume: dict = field(default_factory=dict)  # fixed- vs variable-rate volume of the best design
 
     @property
     def feasible(self) -> bool:
-        """Whether any design keeps every constraint."""
-        return self.search.best is not None
+        """Whether a design keeps every constraint (and the onboard storage holds the worst gap)."""
+        storage = getattr(self.mission, "storage", None)
+        return self.search.best is not None and (storage is None or storage["fits"])
 
     def space(self, band_id: str) -> BandSpace:
         """The design space of a band."""
@@ -111,7 +115,9 @@ def design_link_dict(scenario, space: BandSpace, rec: dict, site) -> dict:
     link = {"direction": scenario.direction, "band": space.band_id,
             "availability_percent": scenario.availability_percent, "elevation_deg": site.min_elevation_deg,
             "polarization_tilt_deg": scenario.polarization_tilt_deg}
-    if scenario.range_m is not None:
+    if site.id in scenario.site_geometry:
+        link["elevation_deg"], link["range_m"] = scenario.site_geometry[site.id]
+    elif scenario.range_m is not None:
         link["range_m"] = scenario.range_m
     else:
         link["altitude_m"] = scenario.altitude_m
@@ -167,7 +173,7 @@ def _evidence(scenario, res: TradeResult) -> None:
                                         "rain_db": float(t["rain_db"][i]),
                                         "scintillation_db": float(t["scintillation_db"][i]),
                                         "total_db": float(t["total_db"][i])})
-        if best is None:
+        if best is None or (scenario.altitude_m is None and scenario.range_m is None):
             continue
         rest = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c[best["c"]] + space.const_db
         t_clear = float(space.site_terms.system_noise_temperature_k[g, 0] - space.site_terms.sky_noise_increase_k[g, 0])
@@ -210,13 +216,18 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
     -------
     TradeResult
     """
+    from .schedule import prepare  # noqa: PLC0415
+
     objective = objective or scenario.objective
+    mission = prepare(scenario)
     limits = Limits(required_margin_db=scenario.required_margin_db, max_comm_mass_kg=scenario.max_comm_mass_kg,
                     max_dc_power_w=scenario.max_dc_power_w)
     spaces = [build_band_space(scenario, b) for b in scenario.band_ids]
     found = search(spaces, limits, objective=objective, max_block_designs=max_block_designs,
                    keep_designs=keep_designs)
-    res = TradeResult(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found)
+    res = TradeResult(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found,
+                      mission=mission)
+    res.notes.extend(mission.notes)
     for s in spaces:
         res.notes.extend(s.notes)
     required = [s for s in scenario.sites if s.required]
@@ -242,5 +253,80 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
                                                                                         rest))
             res.least_power[space.band_id] = least_rf_power_w(space, limits.required_margin_db)
         _evidence(scenario, res)
+    if best is not None and mission.plan is not None:
+        res.volume = _volume_analysis(scenario, res, best)
+        if mission.daily_volume_bits is not None:
+            rates = {r["site_id"]: r["rate_at_mask_bps"] for r in res.volume["sites"]}
+            mission.network = network_choice(scenario, mission.plan, mission.daily_volume_bits, rates)
     return res
+
+
+def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
+    """Daily volume of the best hardware at a fixed rate and with adaptive coding and modulation.
+
+    Per required site and elevation bin (lower edge e_k), each coded modulation's
+    largest rate that keeps the required margin at e_k is
+    R_c(e_k) = R 10^((M_c(e_k) - M_req) / 10), capped by the band's bandwidth;
+    the variable-rate volume sums, over bins, time x the best R_c; the best
+    fixed-rate alternative picks one threshold bin and one modulation.
+    Simultaneous visibility of two sites is counted for each site here.
+    """
+    from ..mission.volume import variable_rate_volume_bits  # noqa: PLC0415
+
+    space = res.space(best["band_id"])
+    plan = res.mission.plan
+    edges = np.asarray(plan.bin_edges_deg, dtype=float)
+    lower = edges[:-1]
+    g = best["g"]
+    row = space.ground.iloc[g]
+    t_clear = float(space.site_terms.system_noise_temperature_k[g, 0] - space.site_terms.sky_noise_increase_k[g, 0])
+    lim_site = int(space.limiting_site_g[g])
+    gain_minus_point = space.x_g[g] - (
+        -space.site_terms.free_space_loss_db[lim_site] - space.site_terms.atmospheric_db[g, lim_site]
+        - 10.0 * np.log10(space.site_terms.system_noise_temperature_k[g, lim_site]))
+    rest_c = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c + space.const_db  # (C,)
+    info = space.modcods["info_bits_per_symbol"].to_numpy(float)
+    roll = space.modcods["rolloff"].to_numpy(float)
+    bw_cap = space.available_bandwidth_hz * info / (1.0 + roll)
+    rate = scenario.rate_bps
+    fixed_total = 0.0
+    variable_total = 0.0
+    per_threshold = np.zeros(lower.size)
+    sites = []
+    for i, site in enumerate(scenario.sites):
+        hist = plan.histogram_s_per_day[i]
+        usable = lower >= site.min_elevation_deg - 1e-9
+        el = np.where(usable, np.maximum(lower, 5.0), 90.0)
+        if scenario.altitude_m is not None:
+            rng = np.asarray(path.slant_range_m(scenario.altitude_m, el))
+        else:
+            rng = np.full(el.shape, scenario.site_geometry[site.id][1])
+        st = site_terms_for_apertures(scenario, [site] * len(el), space.frequency_hz,
+                                      diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
+                                      feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
+                                      elevation_deg=el, range_m=rng)
+        x_k = gain_minus_point - st.free_space_loss_db - st.atmospheric_db[0] - 10.0 * np.log10(
+            st.system_noise_temperature_k[0])
+        margin_kc = x_k[:, None] + rest_c[None, :]
+        r_kc = np.minimum(rate * np.power(10.0, (margin_kc - scenario.required_margin_db) / 10.0), bw_cap[None, :])
+        r_kc = np.where(usable[:, None], r_kc, 0.0)
+        best_k = r_kc.max(axis=1)
+        v_var = float(variable_rate_volume_bits(best_k, hist))
+        v_fixed = rate * float(hist[usable].sum())
+        # a fixed rate chosen to close at threshold bin k delivers R_k x time above e_k
+        above = np.cumsum(hist[::-1])[::-1]
+        first = int(np.argmax(usable)) if usable.any() else None
+        sites.append({"site_id": site.id, "required": site.required, "fixed_rate_bits_per_day": v_fixed,
+                      "variable_rate_bits_per_day": v_var, "contact_s_per_day": float(hist[usable].sum()),
+                      "rate_at_mask_bps": float(best_k[first]) if first is not None else 0.0})
+        if not site.required:
+            continue
+        per_threshold += np.where(usable, best_k * above, 0.0)
+        fixed_total += v_fixed
+        variable_total += v_var
+    k_best = int(np.argmax(per_threshold))
+    return {"rate_bps": rate, "fixed_rate_bits_per_day": fixed_total, "variable_rate_bits_per_day": variable_total,
+            "best_fixed_threshold_deg": float(lower[k_best]), "best_fixed_bits_per_day": float(per_threshold[k_best]),
+            "variable_gain_percent": 100.0 * (variable_total / max(float(per_threshold[k_best]), 1e-30) - 1.0),
+            "bin_edges_deg": [float(e) for e in edges], "sites": sites}
 

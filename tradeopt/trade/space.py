@@ -85,9 +85,16 @@ class BandSpace:
 
 
 def site_geometry(scenario, sites) -> tuple[np.ndarray, np.ndarray]:
-    """Elevation [deg] and slant range [m] at each site's minimum elevation."""
+    """Elevation [deg] and slant range [m] at each site's minimum elevation.
+
+    From the propagated orbit when the scenario has it (``scenario.site_geometry``),
+    else from the spherical-Earth formula (altitude) or the fixed range.
+    """
     el = np.array([s.min_elevation_deg for s in sites], dtype=float)
-    if scenario.range_m is not None:
+    if scenario.site_geometry and all(s.id in scenario.site_geometry for s in sites):
+        el = np.array([scenario.site_geometry[s.id][0] for s in sites], dtype=float)
+        rng = np.array([scenario.site_geometry[s.id][1] for s in sites], dtype=float)
+    elif scenario.range_m is not None:
         rng = np.full(el.shape, float(scenario.range_m))
     else:
         rng = np.asarray(path.slant_range_m(scenario.altitude_m, el), dtype=float)
@@ -155,7 +162,10 @@ def _pfd_worst(scenario, catalog, frequency_hz: float, sites):
         return None, None, None
     r = row.iloc[0]
     lowest = min(s.min_elevation_deg for s in sites)
-    if scenario.range_m is not None:
+    if scenario.altitude_m is None and scenario.site_geometry:
+        angles = np.array([g[0] for g in scenario.site_geometry.values()])
+        rng = np.array([g[1] for g in scenario.site_geometry.values()])
+    elif scenario.range_m is not None:
         angles = np.array([lowest])
         rng = np.array([float(scenario.range_m)])
     else:
