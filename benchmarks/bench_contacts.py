@@ -36,8 +36,8 @@ START_UTC = np.datetime64("2024-01-01T00:00:00")
 DAYS = 365.0
 STEP_S = 10.0
 SITES = {  # invented stations: high-latitude, mid-latitude, equatorial, southern, southern high-latitude
-    "latitude_deg": [78.2, 48.0, 0.5, -33.0, -72.0],
-    "longitude_deg": [15.4, 11.0, -52.0, 149.0, 2.5],
+    "latitude_deg": [74.5, 47.2, -1.2, -31.5, -69.5],
+    "longitude_deg": [19.0, 8.1, -48.5, 146.0, 40.0],
     "altitude_m": [450.0, 600.0, 10.0, 700.0, 1300.0],
 }
 BIN_EDGES_DEG = [5.0, 10.0, 15.0, 20.0, 30.0, 45.0, 60.0, 90.0]

@@ -168,16 +168,18 @@ def bench_search() -> dict:
         limits = Limits(required_margin_db=3.0, max_comm_mass_kg=8.0, max_dc_power_w=100.0)
         search([space], limits, keep_designs=False)  # warm
         best = np.inf
-        for _ in range(3):
+        limit_rate = 0.0
+        for _ in range(5):  # interleaved, best of 5 each: both see the same machine load
             t0 = time.perf_counter()
             res = search([space], limits, keep_designs=False)
             best = min(best, time.perf_counter() - t0)
+            limit_rate = max(limit_rate, _numpy_limit_rate(res.designs_evaluated))
         n = res.designs_evaluated
         out["search_designs"] = n
         out["search_designs_per_s"] = n / best
         out["loop_designs_per_s"] = _loop_rate(space, limits, 2000)
         out["search_ratio_vs_loop"] = out["search_designs_per_s"] / out["loop_designs_per_s"]
-        out["numpy_limit_elements_per_s"] = _numpy_limit_rate(n)
+        out["numpy_limit_elements_per_s"] = limit_rate
         out["search_ratio_vs_numpy_limit"] = out["search_designs_per_s"] / out["numpy_limit_elements_per_s"]
 
     with tempfile.TemporaryDirectory() as tmp:

@@ -157,6 +157,7 @@ class _Fixed:
     code: np.ndarray  # first broken constraint among bandwidth, pfd, mass, dc (0: none)
     n_broken: np.ndarray
     objective: np.ndarray
+    diameter_m: np.ndarray  # per ground antenna
 
 
 def _fixed(space, limits: Limits, objective: str) -> _Fixed:
@@ -178,7 +179,8 @@ def _fixed(space, limits: Limits, objective: str) -> _Fixed:
         n_broken += bad
     obj = np.ascontiguousarray(_objective(objective, mass, dc))
     return _Fixed(rest_db=np.ascontiguousarray(rest), pfd_excess_db=pfd, mass_kg=np.ascontiguousarray(mass),
-                  dc_power_w=np.ascontiguousarray(dc), code=code, n_broken=n_broken, objective=obj)
+                  dc_power_w=np.ascontiguousarray(dc), code=code, n_broken=n_broken, objective=obj,
+                  diameter_m=space.ground["diameter_m"].to_numpy(float))
 
 
 def _record(space, fixed: _Fixed, limits: Limits, g: int, a: int, m: int, c: int, band_order: int) -> dict:
@@ -200,7 +202,7 @@ def _record(space, fixed: _Fixed, limits: Limits, g: int, a: int, m: int, c: int
            "mass_kg": float(fixed.mass_kg[a, m, c]), "dc_power_w": float(fixed.dc_power_w[a, m, c]),
            "bandwidth_hz": float(space.bandwidth_c_hz[c]), "pfd_excess_db": float(fixed.pfd_excess_db[a, m, c]),
            "reason": reason, "shortfall": amounts[reason], "n_broken": int(fixed.n_broken[a, m, c]) + int(margin_bad),
-           "ground_diameter_m": float(space.ground["diameter_m"].iloc[int(g)])}
+           "ground_diameter_m": float(fixed.diameter_m[int(g)])}
     obj = float(fixed.objective[a, m, c])
     rec["_key"] = (round(obj, 9), -round(margin, 9), band_order, rec["g"], rec["a"], rec["m"], rec["c"])
     return rec
@@ -263,13 +265,14 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
         c_top = np.argmax(rest_ok, axis=2) if fx.code.size else np.zeros(fx.code.shape[:2], dtype=int)
         r_top = np.take_along_axis(rest_ok, c_top[..., None], axis=2)[..., 0] if fx.code.size else c_top * 0.0
         dia = space.ground["diameter_m"].to_numpy(float)
+        # margin = X[g] + rest[a, m, c] >= required  <=>  X[g] >= required - rest[a, m, c]
+        need = req - fx.rest_db
         best_rec = None
         for gs, as_ in iter_blocks(space.shape, max_block_designs):
             x = space.x_g[gs]
-            # Every design of the block: its margin, checked against the requirement.
-            margin = x[:, None, None, None] + fx.rest_db[None, as_]
-            n_mok = np.count_nonzero(margin >= req, axis=0)  # (ab, M, C): ground antennas that close
-            del margin
+            # Every design of the block checked against the required margin, in one broadcast pass.
+            closes = x[:, None, None, None] >= need[None, as_]
+            n_mok = closes.view(np.uint8).sum(axis=0, dtype=np.int32)  # (ab, M, C): ground antennas that close
             res.designs_evaluated += len(x) * fx.rest_db[as_].size
             code = fx.code[as_]
             gb = len(x)
@@ -293,11 +296,17 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
             rec = _record(space, fx, limits, gs.start + g_loc, as_.start + int(a_i), int(m_i), int(c_i), order)
             if best_rec is None or rec["_key"] < best_rec["_key"]:
                 best_rec = rec
-            # Pareto candidates: each feasible (g, a, m) with its best modulation.
-            m_gam = x[:, None, None] + r_top[as_][None]
-            gi, ai, mi = np.nonzero(m_gam >= req)
+            # Pareto candidates: the hardware (a, m) fixes mass and DC power, so among its feasible
+            # ground antennas only the smallest dish (then the largest margin) can be non-dominated;
+            # its best modulation is c_top[a, m].
+            perm = np.lexsort((-x, dia[gs]))
+            closes_gam = x[perm][:, None, None] >= (req - r_top[as_])[None]  # (gb, ab, M)
+            any_g = closes_gam.any(axis=0)
+            first = np.argmax(closes_gam, axis=0)
+            ai, mi = np.nonzero(any_g)
+            gi = perm[first[ai, mi]]
             pts = np.column_stack([fx.mass_kg[as_][ai, mi, 0], fx.dc_power_w[as_][ai, mi, 0], dia[gs][gi]])
-            sort = np.argsort(-m_gam[gi, ai, mi], kind="stable")
+            sort = np.argsort(-(x[gi] + r_top[as_][ai, mi]), kind="stable")
             keep = moocore.is_nondominated(pts[sort], keep_weakly=False)
             cand = [_record(space, fx, limits, gs.start + int(gi[k]), as_.start + int(ai[k]), int(mi[k]),
                             int(c_top[as_][ai[k], mi[k]]), order) for k in sort[keep]]
