@@ -27,10 +27,26 @@ CAUTIONS = [
 ]
 
 
+def _object_float(v):
+    """A float in a mixed (object) column, written like the float columns; other values unchanged."""
+    if isinstance(v, (float, np.floating)):
+        if not np.isfinite(v):
+            raise ValueError("a NaN or infinite value reached a CSV output")
+        return CSV_FLOAT_FORMAT % float(v)
+    return v
+
+
 def _csv(df, header_line: str) -> str:
     numeric = df.select_dtypes(include="number")
     if not np.isfinite(numeric.to_numpy(dtype=float)).all():
         raise ValueError("a NaN or infinite value reached a CSV output")
+    # Columns mixing numbers with documented empty cells are object columns, which pandas writes
+    # with repr() and no finiteness check: format (and check) their floats here.
+    mixed = [c for c in df.columns if df[c].dtype == object]
+    if mixed:
+        df = df.copy()
+        for c in mixed:
+            df[c] = df[c].map(_object_float)
     buf = io.StringIO()
     buf.write(f"# {header_line}\n")
     df.to_csv(buf, index=False, float_format=CSV_FLOAT_FORMAT, lineterminator="\n")

@@ -15,7 +15,7 @@ from .evaluate import Limits, SearchResult, search
 from .linkcalc import compute_link
 from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_m
 from .schedule import network_choice
-from .space import BandSpace, build_band_space, site_terms_for_apertures
+from .space import BandSpace, build_band_space, site_geometry, site_terms_for_apertures
 
 __all__ = ["TradeResult", "optimize", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
            "misses_text",
@@ -182,9 +182,14 @@ def _evidence(scenario, res: TradeResult) -> None:
             - space.site_terms.atmospheric_db[g, space.limiting_site_g[g]]
             - 10.0 * np.log10(space.site_terms.system_noise_temperature_k[g, space.limiting_site_g[g]]))
         for site in [s for s in scenario.sites if s.required]:
-            el = ELEVATION_GRID_DEG[ELEVATION_GRID_DEG >= site.min_elevation_deg]
-            rng = (np.full(el.shape, float(scenario.range_m)) if scenario.range_m is not None
-                   else np.asarray(path.slant_range_m(scenario.altitude_m, el)))
+            # The first point is the optimizer's own geometry at the mask (propagated range when the
+            # scenario has it), so the curve starts at the margin the search constrained.
+            el_mask, rng_mask = site_geometry(scenario, [site])
+            above = ELEVATION_GRID_DEG[ELEVATION_GRID_DEG > el_mask[0] + 1e-9]
+            rng_above = (np.full(above.shape, float(scenario.range_m)) if scenario.range_m is not None
+                         else np.asarray(path.slant_range_m(scenario.altitude_m, above), dtype=float))
+            el = np.concatenate([el_mask, above])
+            rng = np.concatenate([rng_mask, rng_above])
             st = site_terms_for_apertures(scenario, [site] * len(el), space.frequency_hz,
                                           diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
                                           feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
