@@ -104,6 +104,9 @@ def summary_dict(res, results_dir: str) -> dict:
            "mission": mission_record(res)}
     if res.search.best is not None and not res.feasible:
         out["feasible"] = False
+        st = out["mission"].get("storage", {})
+        out["infeasible_reason"] = (f"onboard storage {st.get('storage_bits', 0) / 1e9:.4g} Gbit cannot hold the "
+                                    f"{st.get('needed_bits', 0) / 1e9:.4g} Gbit generated during the worst gap")
     if best is not None:
         space = res.space(best["band_id"])
         out["best"] = _best_record(res, space, best)
@@ -155,6 +158,9 @@ def summary_text(res, results_dir: str) -> str:
              f" {res.scenario.rate_bps / 1e6:g} Mbit/s)",
              f"  designs evaluated: {s['designs_evaluated']:,}   feasible: {s['designs_feasible']:,}"]
     b = s["best"]
+    if s.get("infeasible_reason"):
+        lines.append(f"  NOT FEASIBLE: {s['infeasible_reason']}; the link design below closes, but the mission needs "
+                     "more storage or more frequent contacts")
     if b is not None:
         lines.append(f"  BEST: {b['band_id']}  {b['ground_antenna']} + {b['spacecraft_antenna']} + {b['amplifier']} + "
                      f"{b['modcod']}")
