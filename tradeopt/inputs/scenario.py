@@ -7,13 +7,13 @@ unknown key is an error. With no file, the embedded default scenario is used.
 """
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
 from .catalog import Catalog, load_catalog
 from .errors import InputError
-from .linkfile import read_toml
 from .schema import MISSING, Field, check_known, convert
 
 __all__ = ["Scenario", "Site", "SCENARIO_SCHEMA", "load_scenario", "scenario_from_dict", "DEFAULT_SCENARIO_NAME",
@@ -52,7 +52,7 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
         Field("tle_line1", "str", required=False),
         Field("tle_line2", "str", required=False),
         Field("geostationary_longitude_deg", unit="deg", required=False, low=-180.0, high=360.0),
-        Field("range_m", unit="m", required=False, **_pos),
+        Field("range_m", unit="m", required=False, low=0.0, low_open=True, high=1.0e14),
     ],
     "requirement": [
         Field("rate_bps", unit="bit/s", required=False, **_pos),
@@ -255,7 +255,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                          f"{exc.model} ({lo:g} to {hi:g}); choose a value in that range", file=file,
                          where="key [scenario] availability_percent") from None
 
-    _check_orbit(orbit, file)
+    _check_orbit(orbit, file, written=set(data.get("orbit", {})))
     contacts = _table(data, "contacts", file)
     framing = _table(data, "framing", file)
     arq = _table(data, "arq", file)
@@ -285,6 +285,9 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                          where="key [requirement] volume_from_demand")
 
     raw_sites = data.get("sites")
+    if isinstance(raw_sites, dict):
+        raise InputError("expected [[sites]] tables (double brackets, one per site), got a single [sites] table",
+                         file=file, where="table [[sites]]")
     if not isinstance(raw_sites, list) or not raw_sites:
         raise InputError("missing; give at least one [[sites]] table", file=file, where="table [[sites]]")
     sites = []
@@ -317,8 +320,15 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         cat_dir = sc["catalogs"]
         if cat_dir is not None and base_dir is not None:
             cat_dir = str(base_dir / cat_dir)
+        if cat_dir is not None and not Path(cat_dir).is_dir():
+            raise InputError(f"catalog folder {cat_dir!r} not found; expected a folder of CSV catalogs (relative to "
+                             "the scenario file)", file=file, where="key [scenario] catalogs")
         catalog = load_catalog(cat_dir)
     _check_ids(sc["bands"], catalog.bands, "band_id", file=file, where="key [scenario] bands", what="band")
+    for i, b in enumerate(sc["bands"]):
+        if b in sc["bands"][:i]:
+            raise InputError(f"band {b!r} is listed twice; expected each band once", file=file,
+                             where="key [scenario] bands")
     bands = catalog.bands.set_index("band_id")
     for b in sc["bands"]:
         if bands.loc[b, "direction"] != sc["direction"]:
@@ -363,14 +373,31 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         coding=coding, network=network, base_dir=base_dir, file=file, raw=data)
 
 
+#: An ISO 8601 UTC date or time: ``2027-01-01``, ``2027-01-01T00:00``, ``2027-01-01T00:00:00[.fff][Z]``.
+_ISO_UTC = re.compile(r"\d{4}-\d{2}-\d{2}(?:[T ]\d{2}:\d{2}(?::\d{2}(?:\.\d{1,9})?)?)?Z?")
+
+
 def _check_time(text: str, file: str, where: str) -> None:
+    """An ISO 8601 UTC time that numpy parses the same way everywhere (no "now", no offset)."""
+    import warnings  # noqa: PLC0415
+
     import numpy as np  # noqa: PLC0415
 
-    try:
-        np.datetime64(text.replace("Z", ""), "ns")
-    except ValueError:
+    text = text.strip()
+    if re.fullmatch(r".*(?:T|\s)\d{2}:\d{2}(?::\d{2}(?:\.\d+)?)?[+-]\d{2}(?::?\d{2})?", text):
+        raise InputError(f"expected a UTC time without a UTC offset, like 2027-01-01T00:00:00 (convert to UTC), "
+                         f"got {text!r}", file=file, where=where)
+    ok = bool(_ISO_UTC.fullmatch(text))
+    if ok:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                np.datetime64(text.replace("Z", ""), "ns")
+        except ValueError:
+            ok = False
+    if not ok:
         raise InputError(f"expected an ISO 8601 UTC time like 2027-01-01T00:00:00, got {text!r}", file=file,
-                         where=where) from None
+                         where=where)
 
 
 def _altitude_of(orbit: dict) -> float | None:
@@ -384,8 +411,14 @@ def _altitude_of(orbit: dict) -> float | None:
     return None
 
 
-def _check_orbit(orbit: dict, file: str) -> None:
-    """Exactly one orbit form, with the keys it needs and only those."""
+def _check_orbit(orbit: dict, file: str, written: set | None = None) -> None:
+    """Exactly one orbit form, with the keys it needs and only those.
+
+    ``written`` holds the keys written in the file's [orbit] table: a key with a default
+    (``raan_deg``, ``argument_of_perigee_deg``, ``mean_anomaly_deg``) that does not apply
+    to the orbit form is an error, never silently ignored.
+    """
+    written = set() if written is None else written
     forms = {
         "elements": orbit["altitude_m"] is not None or orbit["semi_major_axis_m"] is not None,
         "tle": bool(orbit["tle_line1"] or orbit["tle_line2"]),
@@ -421,12 +454,17 @@ def _check_orbit(orbit: dict, file: str) -> None:
             satrec_from_tle(orbit["tle_line1"], orbit["tle_line2"])
         except ValueError as exc:
             raise InputError(str(exc), file=file, where="key [orbit] tle_line1/tle_line2") from None
-    others = {"elements": (), "tle": ("eccentricity", "inclination_deg", "epoch_utc"),
-              "geostationary": ("eccentricity", "inclination_deg", "epoch_utc"),
-              "range": ("eccentricity", "inclination_deg", "epoch_utc")}[kind]
+    angles = ("raan_deg", "argument_of_perigee_deg", "mean_anomaly_deg")
+    others = () if kind == "elements" else ("eccentricity", "inclination_deg", "epoch_utc") + angles
     for k in others:
-        if orbit[k] is not None:
+        if orbit[k] is not None and (k not in angles or k in written):
             raise InputError(f"{k} does not apply to this orbit form ({kind})", file=file, where=f"key [orbit] {k}")
+    if kind == "elements" and orbit["inclination_deg"] is None:
+        for k in angles + ("epoch_utc",):
+            if k in written and orbit[k] is not None:
+                raise InputError(f"{k} applies to a propagated orbit: give inclination_deg too (altitude_m alone is a "
+                                 "circular orbit over a spherical Earth, with no elements)", file=file,
+                                 where=f"key [orbit] {k}")
 
 
 def _payloads(data: dict, file: str, base_dir: Path | None) -> list:
@@ -454,6 +492,10 @@ def _payloads(data: dict, file: str, base_dir: Path | None) -> list:
             sample = Path(v["compression_sample_file"])
             if not sample.is_absolute() and base_dir is not None:
                 sample = base_dir / sample
+            if sample.exists() and not sample.is_file():
+                raise InputError(f"sample file {str(sample)!r} is not a file; give the path of a representative data "
+                                 "file (relative to the scenario) to measure its compression", file=file,
+                                 where=f"key {where_t} compression_sample_file")
             if not sample.is_file():
                 raise InputError(f"sample file {str(sample)!r} does not exist; give the path of a representative "
                                  "data file (relative to the scenario) to measure its compression", file=file,
@@ -479,5 +521,29 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
         data_dir = resources.files("tradeopt.data")
         text = data_dir.joinpath("default_scenario.toml").read_text(encoding="utf-8")
         return scenario_from_dict(tomllib.loads(text), file=DEFAULT_SCENARIO_NAME, base_dir=Path(str(data_dir)))
-    data = read_toml(path)
+    data = _read_scenario_toml(path)
     return scenario_from_dict(data, file=str(path), base_dir=Path(path).parent)
+
+
+def _read_scenario_toml(path: str | Path) -> dict:
+    """Parse a scenario file; a malformed or empty file becomes an :class:`InputError`.
+
+    The messages are those of :func:`tradeopt.inputs.linkfile.read_toml`, except that an
+    empty file is described as an empty scenario (not as an empty link file).
+    """
+    import tomllib  # noqa: PLC0415
+
+    fname = str(path)
+    try:
+        with open(path, "rb") as fh:
+            data = tomllib.load(fh)
+    except FileNotFoundError:
+        raise InputError("file not found; expected a TOML scenario file", file=fname) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"is not valid TOML: {exc}", file=fname) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot be read ({exc.__class__.__name__})", file=fname) from None
+    if not data:
+        raise InputError("file is empty; expected the tables [scenario], [orbit], [requirement] and [[sites]]",
+                         file=fname)
+    return data

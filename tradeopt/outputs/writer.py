@@ -2,7 +2,9 @@
 
 A crash or a kill never leaves a half-written results folder: the previous
 folder stays intact until the new one is complete, and temporary folders left
-by a killed run are removed by the next one.
+by a killed run are removed by the next one. The previous folder is moved aside
+(``<TEMP_PREFIX><pid>-prev-<name>``) only for the instant between two renames;
+if the run dies in that instant, the next run puts it back.
 """
 from __future__ import annotations
 
@@ -27,14 +29,36 @@ def _pid_alive(pid: int) -> bool:
     return True
 
 
+_PREV = "-prev-"
+
+
 def _clean_stale(parent: Path) -> None:
-    for entry in parent.glob(TEMP_PREFIX + "*"):
-        try:
-            pid = int(entry.name[len(TEMP_PREFIX):].split("-")[0])
-        except ValueError:
+    """Remove the temporary folders of dead runs; put back a previous folder a dead run had moved aside."""
+    for entry in sorted(parent.glob(TEMP_PREFIX + "*")):
+        rest = entry.name[len(TEMP_PREFIX):]
+        pid_text = rest.split("-")[0]
+        if not pid_text.isdigit() or _pid_alive(int(pid_text)):
             continue
-        if not _pid_alive(pid):
-            shutil.rmtree(entry, ignore_errors=True)
+        tail = rest[len(pid_text):]
+        if tail.startswith(_PREV) and len(tail) > len(_PREV):
+            home = parent / tail[len(_PREV):]
+            if not home.exists() and not home.is_symlink():
+                try:
+                    os.rename(entry, home)
+                    continue
+                except OSError:
+                    pass
+        shutil.rmtree(entry, ignore_errors=True)
+
+
+def _aside_name(parent: Path, name: str) -> Path:
+    """Where the previous folder waits while the new one is renamed into place."""
+    old = parent / f"{TEMP_PREFIX}{os.getpid()}{_PREV}{name}"
+    if len(old.name.encode()) > 255 or old.exists() or old.is_symlink():
+        # A name too long to carry the target's name (or already taken): a unique name, not restorable.
+        old = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-old-", dir=parent))
+        os.rmdir(old)
+    return old
 
 
 def write_results(out_dir: str | os.PathLike, files: dict[str, str | bytes]) -> Path:
@@ -80,10 +104,13 @@ def write_results(out_dir: str | os.PathLike, files: dict[str, str | bytes]) -> 
                 os.fsync(fh.fileno())
         os.chmod(tmp, 0o755)
         if target.exists():
-            old = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-old-", dir=parent))
-            os.rmdir(old)
+            old = _aside_name(parent, target.name)
             os.rename(target, old)
-            os.rename(tmp, target)
+            try:
+                os.rename(tmp, target)
+            except OSError:
+                os.rename(old, target)  # put the previous results back before reporting the error
+                raise
             shutil.rmtree(old, ignore_errors=True)
         else:
             os.rename(tmp, target)
