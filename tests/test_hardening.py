@@ -185,7 +185,7 @@ def test_corpus_is_large_and_covers_every_kind_of_mistake():
         "orbit_altitude_and_tle", "eccentricity_1", "eccentricity_1_5", "perigee_below_surface",
         "tle_bad_checksum", "tle_short_line", "sample_file_missing", "sample_file_empty",
         "volume_from_demand_no_payloads", "rate_and_daily_volume", "payload_raw_rate_and_bits_per_sample",
-        "payload_aliasing", "start_time_bad_month", "bin_edges_decreasing", "catalogs_missing",
+        "start_time_bad_month", "bin_edges_decreasing", "catalogs_missing",
     ):
         assert needed in names, needed
     assert (BAD_DIR / "empty_sample.bin").stat().st_size == 0

@@ -114,7 +114,7 @@ def demand_record(scenario, dplan) -> dict:
             "information_bits_per_day": dplan.result.information_bits_per_day,
             "channel_bits_per_day": dplan.result.channel_bits_per_day,
             "frame_efficiency": dplan.frame_efficiency, "arq_efficiency": dplan.arq_efficiency,
-            "compression": dplan.compression, "quantization": dplan.quantization}
+            "compression": dplan.compression, "quantization": dplan.quantization, "warnings": dplan.warnings}
 
 
 def run_demand(*, scenario_path=None, as_json=False) -> int:
@@ -147,5 +147,6 @@ def run_demand(*, scenario_path=None, as_json=False) -> int:
             extra = f"; {verdict} the required {q['required_snr_db']:g} dB"
         lines.append(f"  {q['name']}: {q['bits_per_sample']:g}-bit quantization SNR {q['quantization_snr_db']:.2f} dB "
                      f"(6.02 N + 1.76){extra}")
+    lines.extend(f"  WARNING: {w}" for w in dplan.warnings)
     print("\n".join(lines))
     return 0

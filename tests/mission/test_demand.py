@@ -256,8 +256,9 @@ def test_demand_chain_errors():
         demand_chain(Payload(name="x"))
     with pytest.raises(ValueError, match="not both"):
         demand_chain(Payload(raw_rate_bps=1.0, bits_per_sample=8, sampling_rate_hz=10.0))
-    with pytest.raises(ValueError, match="alias"):
-        demand_chain(Payload(sampling_rate_hz=1.0e6, signal_bandwidth_hz=1.0e6, bits_per_sample=8))
+    # Sampling below the Nyquist rate 2 B is reported as a warning in the table, not refused.
+    aliased = demand_chain(Payload(sampling_rate_hz=1.0e6, signal_bandwidth_hz=1.0e6, bits_per_sample=8))
+    assert "WARNING" in aliased.table["note"].iloc[0] and "alias" in aliased.table["note"].iloc[0]
     with pytest.raises(ValueError, match="unknown payload key"):
         demand_chain({"rate": 1.0})
     with pytest.raises(ModelRangeError, match="code_rate"):

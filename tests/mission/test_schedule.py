@@ -167,3 +167,25 @@ def test_bad_mission_inputs_are_one_clear_error(mutate, where):
     with pytest.raises(InputError) as err:
         scenario_from_dict(data, file="bad.toml", base_dir=DATA)
     assert "bad.toml" in err.value.line() and where in err.value.line()
+
+
+def test_sampling_below_nyquist_is_a_warning_not_an_error():
+    # Nyquist (1928): f_s < 2 B aliases. The work order asks for a warning, so the run goes on.
+    data = _default_dict()
+    imager = data["payloads"][0]
+    imager["sampling_rate_hz"] = 1.5 * imager["signal_bandwidth_hz"]
+    sc = scenario_from_dict(data, file="<test>", base_dir=DATA)
+    d = schedule.demand_plan(sc)
+    assert any("aliases" in w for w in d.warnings)
+    assert "WARNING" in d.result.table["note"].iloc[0]
+
+
+def test_quantization_below_required_snr_is_a_warning():
+    # 6.02 N + 1.76 dB (ideal N-bit converter): 10 bits give 61.96 dB < 70 dB required; 12 bits are needed.
+    data = _default_dict()
+    data["payloads"][0]["bits_per_sample"] = 10
+    sc = scenario_from_dict(data, file="<test>", base_dir=DATA)
+    d = schedule.demand_plan(sc)
+    q = d.quantization[0]
+    assert q["quantization_snr_db"] == pytest.approx(61.96) and q["meets"] is False and q["bits_needed"] == 12
+    assert any("quantization" in w for w in d.warnings)

@@ -504,11 +504,6 @@ def _payloads(data: dict, file: str, base_dir: Path | None) -> list:
                 raise InputError(f"sample file {str(sample)!r} is empty; a compression ratio cannot be measured",
                                  file=file, where=f"key {where_t} compression_sample_file")
             v["compression_sample_file"] = str(sample)
-        if v["sampling_rate_hz"] is not None and v["signal_bandwidth_hz"] is not None \
-                and v["sampling_rate_hz"] < 2.0 * v["signal_bandwidth_hz"]:
-            raise InputError(f"sampling_rate_hz {v['sampling_rate_hz']:g} is below 2 x signal_bandwidth_hz and "
-                             "would alias; raise it (2.2 x bandwidth is common practice)", file=file,
-                             where=f"key {where_t} sampling_rate_hz")
         out.append(v)
     return out
 

@@ -579,11 +579,10 @@ class Payload:
                              f"sampling_rate_hz or signal_bandwidth_hz")
         if self.sampling_rate_hz is not None:
             fs = float(self.sampling_rate_hz)
-            if self.signal_bandwidth_hz is not None and is_aliased(fs, self.signal_bandwidth_hz):
-                raise ValueError(f"payload {self.name!r}: sampling_rate_hz = {fs:g} is below "
-                                 f"2 x signal_bandwidth_hz = {2 * float(self.signal_bandwidth_hz):g} "
-                                 f"and would alias; raise the sampling rate")
             how = f"f_s {fs:g} Hz"
+            if self.signal_bandwidth_hz is not None and is_aliased(fs, self.signal_bandwidth_hz):
+                how += (f" (WARNING: below 2 x signal_bandwidth_hz = {2 * float(self.signal_bandwidth_hz):g} Hz, "
+                        "the signal aliases)")
         else:
             fs = float(sampling_rate_hz(self.signal_bandwidth_hz,
                                         sampling_factor=self.sampling_factor))

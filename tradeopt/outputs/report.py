@@ -216,6 +216,7 @@ def summary_text(res, results_dir: str) -> str:
                          f"({n['cost_per_year']:,.0f} per year, {n['delivered_bits_per_day'] / 1e9:.4g} Gbit/day)")
         else:
             lines.append(f"  ground network: {n['status']}: {n['message']}")
+    lines.extend(f"  {n}" for n in sorted(set(res.notes)) if n.startswith("WARNING"))
     lines.append(f"  results: {results_dir}")
     return "\n".join(lines)
 

@@ -133,7 +133,7 @@ def check_inputs(*, latitude_deg=0.0, longitude_deg=0.0, altitude_m=0.0, frequen
                     "ITU-R P.676-12 Annex 2 and P.618-13 scintillation")
     if percent_of_year is not None:
         check_range("percent_of_year", percent_of_year, *PERCENT_RANGE,
-                    "ITU-R P.618-13 rain attenuation (availability 95 % to 99.999 %)")
+                    "ITU-R P.618-13 rain attenuation")
     if antenna_diameter_m is not None:
         check_range("antenna_diameter_m", antenna_diameter_m, 0.0, 1.0e3, "ITU-R P.618-13 scintillation",
                     low_open=True)

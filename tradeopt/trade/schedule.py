@@ -176,6 +176,7 @@ class DemandPlan:
     quantization: list  # per payload: dict name, bits, snr_db, required_snr_db, meets
     frame_efficiency: float
     arq_efficiency: float
+    warnings: list = field(default_factory=list)
 
 
 def demand_plan(scenario, *, contact_gap_s: float | None = None) -> DemandPlan:
@@ -232,8 +233,20 @@ def demand_plan(scenario, *, contact_gap_s: float | None = None) -> DemandPlan:
                                  code_rate=scenario.coding["code_rate"])
     except ValueError as exc:
         raise InputError(str(exc), file=scenario.file, where="table [[payloads]]") from None
+    warnings = []
+    for p in scenario.payloads:
+        if p["sampling_rate_hz"] is not None and p["signal_bandwidth_hz"] is not None \
+                and dm.is_aliased(p["sampling_rate_hz"], p["signal_bandwidth_hz"]):
+            warnings.append(f"payload {p['name']!r}: sampling_rate_hz {p['sampling_rate_hz']:g} Hz is below "
+                            f"2 x signal_bandwidth_hz = {2 * p['signal_bandwidth_hz']:g} Hz: the signal aliases "
+                            "(2.2 x bandwidth is common practice)")
+    for q in quant:
+        if q["meets"] is False:
+            warnings.append(f"payload {q['name']!r}: {q['bits_per_sample']:g}-bit quantization gives "
+                            f"{q['quantization_snr_db']:.2f} dB, below the required {q['required_snr_db']:g} dB "
+                            f"(needs {q['bits_needed']} bits)")
     return DemandPlan(result=result, compression=compression, quantization=quant, frame_efficiency=f_eff,
-                      arq_efficiency=a_eff)
+                      arq_efficiency=a_eff, warnings=warnings)
 
 
 def required_rate_bps(scenario, plan: ContactPlan, daily_volume_bits: float) -> tuple[float, float]:
@@ -325,6 +338,7 @@ def prepare(scenario) -> MissionContext:
         return ctx
     if req.get("volume_from_demand"):
         ctx.demand = demand_plan(scenario)
+        ctx.notes.extend(f"WARNING: {w}" for w in ctx.demand.warnings)
         ctx.daily_volume_bits = float(ctx.demand.result.information_bits_per_day)
         ctx.rate_source = "demand"
     else:
