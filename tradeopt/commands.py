@@ -21,9 +21,13 @@ def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=Fa
     from .outputs.provenance import clean_for_json
     from .trade.optimize import optimize
 
+    from .inputs.errors import InputError
+
     scenario = load_scenario(scenario_path)
-    res = optimize(scenario, objective=objective)
     target = Path(out_dir) if out_dir else _default_out(scenario.name)
+    if target.exists() and not target.is_dir():
+        raise InputError("exists and is not a folder; give a folder path for the results", file=str(target))
+    res = optimize(scenario, objective=objective)
     files = build_files(res, str(target))
     write_results(target, files)
     if as_json:

@@ -156,3 +156,18 @@ def test_least_rf_power_gives_exactly_the_required_margin(sized):
         margins = _margins_with_power(scenario, space, r.ground_antenna_id, r.spacecraft_antenna_id, r.modcod_id,
                                       float(r.least_rf_power_w))
         assert abs(min(margins.values()) - scenario.required_margin_db) < 1e-6, (r, margins)
+
+
+def test_large_space_leaves_designs_csv_out_but_keeps_the_answer():
+    # Memory and disk stay bounded: beyond the detail limit every design is still evaluated
+    # (same best design and counts), only the per-design table is left out, and a note says so.
+    from tradeopt.inputs.scenario import load_scenario
+    from tradeopt.trade.optimize import optimize
+
+    full = optimize(load_scenario(None), sizing=False)
+    capped = optimize(load_scenario(None), sizing=False, designs_csv_max=100)
+    assert capped.search.designs == [] and full.search.designs
+    assert capped.search.designs_evaluated == full.search.designs_evaluated
+    assert capped.search.designs_feasible == full.search.designs_feasible
+    assert capped.search.best["_key"] == full.search.best["_key"]
+    assert any("designs.csv left out" in n for n in capped.notes)

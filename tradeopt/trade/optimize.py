@@ -17,7 +17,7 @@ from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_
 from .schedule import network_choice
 from .space import BandSpace, build_band_space, site_geometry, site_terms_for_apertures
 
-__all__ = ["TradeResult", "optimize", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
+__all__ = ["TradeResult", "optimize", "DESIGNS_CSV_MAX", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
            "misses_text",
            "AVAILABILITY_GRID_PERCENT", "ELEVATION_GRID_DEG"]
 
@@ -201,8 +201,12 @@ def _evidence(scenario, res: TradeResult) -> None:
                                              "margin_db": float(mgn)})
 
 
+#: Largest design space written in detail to designs.csv (beyond it, the file is left out and a note says so).
+DESIGNS_CSV_MAX = 1_000_000
+
+
 def optimize(scenario, *, objective: str | None = None, max_block_designs: int = 1 << 20,
-             keep_designs: bool = True, sizing: bool = True) -> TradeResult:
+             keep_designs: bool = True, sizing: bool = True, designs_csv_max: int = DESIGNS_CSV_MAX) -> TradeResult:
     """Run the whole trade for a scenario.
 
     Parameters
@@ -213,7 +217,9 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
     max_block_designs : int
         Designs held in memory at once.
     keep_designs : bool
-        Keep every design for ``designs.csv``.
+        Keep every design for ``designs.csv`` (only when the space has at most ``designs_csv_max`` designs).
+    designs_csv_max : int
+        Largest space kept in detail.
     sizing : bool
         Compute the continuous sizing, dish curves and evidence.
 
@@ -228,11 +234,19 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
     limits = Limits(required_margin_db=scenario.required_margin_db, max_comm_mass_kg=scenario.max_comm_mass_kg,
                     max_dc_power_w=scenario.max_dc_power_w)
     spaces = [build_band_space(scenario, b) for b in scenario.band_ids]
+    total = sum(sp.size for sp in spaces)
+    dropped_note = None
+    if keep_designs and total > designs_csv_max:
+        keep_designs = False
+        dropped_note = (f"designs.csv left out: {total:,} designs exceed the {designs_csv_max:,} written in detail; "
+                        "every design was still evaluated, and pareto.csv, bands.csv and best.json are complete")
     found = search(spaces, limits, objective=objective, max_block_designs=max_block_designs,
                    keep_designs=keep_designs)
     res = TradeResult(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found,
                       mission=mission)
     res.notes.extend(mission.notes)
+    if dropped_note:
+        res.notes.append(dropped_note)
     for s in spaces:
         res.notes.extend(s.notes)
     required = [s for s in scenario.sites if s.required]
