@@ -100,7 +100,7 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
         Field("spacecraft_antennas", "str_list", required=False),
         Field("amplifiers", "str_list", required=False),
         Field("modcods", "str_list", required=False),
-        Field("dish_curve_max_diameter_m", unit="m", required=False, default=15.0, low=0.5, high=100.0),
+        Field("dish_curve_max_diameter_m", unit="m", required=False, default=None, low=0.5, high=100.0),
         Field("dish_curve_step_m", unit="m", required=False, default=0.25, low=0.01, high=10.0),
     ],
 }
@@ -170,7 +170,7 @@ class Scenario:
     power_mass_kg_per_w: float = POWER_MASS_KG_PER_W_DEFAULT
     bandwidth_limits_hz: dict = field(default_factory=dict)
     options: dict = field(default_factory=dict)
-    dish_curve_max_diameter_m: float = 15.0
+    dish_curve_max_diameter_m: float | None = None
     dish_curve_step_m: float = 0.25
     orbit: dict = field(default_factory=dict)
     requirement: dict = field(default_factory=dict)

@@ -227,8 +227,12 @@ def summary_text(res, results_dir: str) -> str:
                          f"{rec['mass_kg']:.2f} kg, {rec['dc_power_w']:.1f} W")
     for band_id, curve in res.curves.items():
         if curve["knee_diameter_m"] is not None:
-            lines.append(f"  {band_id}: a ground dish beyond {curve['knee_diameter_m']:g} m stops paying "
-                         f"(within 2 % of the best {res.objective} on the curve)")
+            end = float(curve["diameter_m"][-1])
+            if curve["knee_diameter_m"] >= end:
+                lines.append(f"  {band_id}: the optimum still improves up to the largest dish on the curve ({end:g} m)")
+            else:
+                lines.append(f"  {band_id}: a ground dish beyond {curve['knee_diameter_m']:g} m stops paying "
+                             f"(within 2 % of the best {res.objective} on the curve, which ends at {end:g} m)")
     m = s["mission"]
     if m.get("rate_source") in ("demand", "daily_volume_bits"):
         lines.append(f"  rate from the daily volume: {m['daily_volume_bits'] / 1e9:.4g} Gbit/day over "

@@ -52,8 +52,10 @@ class DishModel:
 
 
 def dish_model(scenario, space) -> DishModel:
-    """A :class:`DishModel` on the scenario's diameter grid."""
+    """A :class:`DishModel` on the scenario's diameter grid (default: up to the band's largest catalog dish)."""
     d_max = scenario.dish_curve_max_diameter_m
+    if d_max is None:  # default: the band's largest catalog dish (no extrapolation of the terminal)
+        d_max = float(space.ground["diameter_m"].max())
     step = scenario.dish_curve_step_m
     grid = np.round(np.arange(step, d_max + step / 2, step), 6)
     grid = grid[grid >= 0.5] if (grid >= 0.5).any() else grid
