@@ -12,6 +12,7 @@ from pathlib import Path
 from .catalog import Catalog, load_catalog
 from .errors import InputError
 from .schema import MISSING, Field, check_known, convert
+from .schema import read_toml as _read_toml
 
 __all__ = ["LinkSpec", "LINK_SCHEMA", "read_toml", "load_link_file", "link_spec_from_dict", "locate_model_error"]
 
@@ -121,21 +122,9 @@ class LinkSpec:
 
 
 def read_toml(path: Path | str) -> dict:
-    """Parse a TOML file; a malformed file becomes an :class:`InputError`."""
-    fname = str(path)
-    try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError("file not found; expected a TOML file", file=fname) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"is not valid TOML: {exc}", file=fname) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot be read ({exc.__class__.__name__})", file=fname) from None
-    if not data:
-        raise InputError("file is empty; expected the tables [link], [transmitter], [receiver], [waveform]",
-                         file=fname)
-    return data
+    """Parse a link file; a malformed or empty file becomes an :class:`InputError`."""
+    return _read_toml(path, what="a TOML file",
+                      expected_tables="the tables [link], [transmitter], [receiver], [waveform]")
 
 
 def _table(data: dict, name: str, file: str | None) -> dict:

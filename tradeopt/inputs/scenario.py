@@ -14,7 +14,7 @@ from pathlib import Path
 
 from .catalog import Catalog, load_catalog
 from .errors import InputError
-from .schema import MISSING, Field, check_known, convert
+from .schema import MISSING, Field, check_known, convert, read_toml
 
 __all__ = ["Scenario", "Site", "SCENARIO_SCHEMA", "load_scenario", "scenario_from_dict", "DEFAULT_SCENARIO_NAME",
            "POWER_MASS_KG_PER_W_DEFAULT"]
@@ -521,24 +521,6 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
 
 
 def _read_scenario_toml(path: str | Path) -> dict:
-    """Parse a scenario file; a malformed or empty file becomes an :class:`InputError`.
-
-    The messages are those of :func:`tradeopt.inputs.linkfile.read_toml`, except that an
-    empty file is described as an empty scenario (not as an empty link file).
-    """
-    import tomllib  # noqa: PLC0415
-
-    fname = str(path)
-    try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError("file not found; expected a TOML scenario file", file=fname) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"is not valid TOML: {exc}", file=fname) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot be read ({exc.__class__.__name__})", file=fname) from None
-    if not data:
-        raise InputError("file is empty; expected the tables [scenario], [orbit], [requirement] and [[sites]]",
-                         file=fname)
-    return data
+    """Parse a scenario file (an empty one is described as an empty scenario)."""
+    return read_toml(path, what="a TOML scenario file",
+                     expected_tables="the tables [scenario], [orbit], [requirement] and [[sites]]")

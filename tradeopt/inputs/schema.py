@@ -14,7 +14,7 @@ from typing import Any
 
 from .errors import InputError
 
-__all__ = ["Field", "convert", "check_known", "MISSING"]
+__all__ = ["Field", "convert", "check_known", "read_toml", "MISSING"]
 
 MISSING = object()
 
@@ -216,3 +216,32 @@ def check_known(names, known, *, file: str | None, where: str, what: str = "colu
             hint = _close_match(name, known, cutoff=0.5)
             tip = f"; did you mean {hint!r}?" if hint else f"; expected one of: {', '.join(known)}"
             raise InputError(f"unknown {what} {name!r}{tip}", file=file, where=where)
+
+
+def read_toml(path, *, what: str, expected_tables: str) -> dict:
+    """Parse a TOML file; every problem becomes one :class:`InputError` naming the file.
+
+    Parameters
+    ----------
+    path : path
+        The file.
+    what : str
+        What the file should be, for the message (e.g. ``"a TOML scenario file"``).
+    expected_tables : str
+        The tables an empty file lacks, for the message.
+    """
+    import tomllib  # noqa: PLC0415
+
+    fname = str(path)
+    try:
+        with open(path, "rb") as fh:
+            data = tomllib.load(fh)
+    except FileNotFoundError:
+        raise InputError(f"file not found; expected {what}", file=fname) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"is not valid TOML: {exc}", file=fname) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot be read ({exc.__class__.__name__})", file=fname) from None
+    if not data:
+        raise InputError(f"file is empty; expected {expected_tables}", file=fname)
+    return data
