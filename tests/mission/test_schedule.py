@@ -170,7 +170,7 @@ def test_bad_mission_inputs_are_one_clear_error(mutate, where):
 
 
 def test_sampling_below_nyquist_is_a_warning_not_an_error():
-    # Nyquist (1928): f_s < 2 B aliases. The work order asks for a warning, so the run goes on.
+    # Nyquist (1928): f_s < 2 B aliases. The demand reports it as a warning and the run goes on.
     data = _default_dict()
     imager = data["payloads"][0]
     imager["sampling_rate_hz"] = 1.5 * imager["signal_bandwidth_hz"]

@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from scipy import integrate, special
 
@@ -144,6 +144,9 @@ def test_forward_inverse_round_trip(case, ebn0_db):
     # inverse accurate to 1e-6 dB (requirement of the module)
     scheme, order = case
     ber = wf.bit_error_rate(scheme, ebn0_db, order=order)
+    # 32-FSK above about 24.8 dB has a BER below 1e-308, which a 64-bit float cannot hold (it rounds
+    # to 0); the round trip is only defined where the BER is representable.
+    assume(ber >= 1e-300 or not (scheme == "mfsk_noncoherent" and ebn0_db > 24.0))
     assert 0.0 < ber < 0.5
     assert wf.required_ebn0_db(scheme, ber, order=order) == pytest.approx(ebn0_db, abs=1e-6)
 

@@ -247,8 +247,19 @@ def _cross_check(cat: Catalog) -> None:
     for r in cat.modcods.itertuples():
         if r.info_bits_per_symbol > r.bits_per_symbol:
             raise InputError(f"info_bits_per_symbol {r.info_bits_per_symbol:g} exceeds bits_per_symbol "
-                             f"{r.bits_per_symbol}; expected at most bits_per_symbol x code_rate",
+                             f"{r.bits_per_symbol}; expected at most bits_per_symbol",
                              file=f("modcods"), where=where(r, "info_bits_per_symbol"))
+    # No coded modulation beats capacity (Shannon 1948): a threshold below the bound at its spectral
+    # efficiency is a mislabelled threshold_quantity or a wrong number.
+    from ..physics.waveform import shannon_ebn0_min_db  # noqa: PLC0415
+
+    bound = shannon_ebn0_min_db(cat.modcods["info_bits_per_symbol"])
+    for r, b in zip(cat.modcods.itertuples(), bound):
+        if r.ebn0_required_db <= b:
+            raise InputError(f"required Eb/N0 {r.ebn0_required_db:.3f} dB (threshold_db read as "
+                             f"{r.threshold_quantity}) is at or below the Shannon bound {b:.3f} dB at "
+                             f"{r.info_bits_per_symbol:g} information bits per symbol; check threshold_db and "
+                             "threshold_quantity", file=f("modcods"), where=where(r, "threshold_db"))
     diam = {}
     for r in cat.ground_antennas.itertuples():
         first = diam.setdefault(r.ground_antenna_id, (r.diameter_m, r.line))
@@ -309,10 +320,9 @@ def load_catalog(directory: Path | str | None = None) -> Catalog:
     es = m["threshold_quantity"] == "esn0"
     m["ebn0_required_db"] = m["threshold_db"].where(~es, ebn0_from_esn0_db(m["threshold_db"],
                                                                            m["info_bits_per_symbol"]))
-    for name in ("spacecraft_antennas",):
-        t = tables[name]
-        for col in ("gain_dbi", "diameter_m", "efficiency"):
-            t[col] = t[col].astype(float)
+    craft = tables["spacecraft_antennas"]  # optional numeric columns: empty cells become NaN, never None
+    for col in ("gain_dbi", "diameter_m", "efficiency"):
+        craft[col] = craft[col].astype(float)
     cat = Catalog(directory=directory, **tables)
     _cross_check(cat)
     return cat

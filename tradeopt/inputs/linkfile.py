@@ -5,7 +5,7 @@ its unit in its name; an unknown key is an error, never ignored.
 """
 from __future__ import annotations
 
-import tomllib
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -17,6 +17,8 @@ from .schema import read_toml as _read_toml
 __all__ = ["LinkSpec", "LINK_SCHEMA", "read_toml", "load_link_file", "link_spec_from_dict", "locate_model_error"]
 
 _pos = dict(low=0.0, low_open=True)
+#: The Shannon limit on Eb/N0 [dB], as in :mod:`tradeopt.physics.waveform` (not imported here: scipy is heavy).
+_SHANNON_LIMIT_EBN0_DB = 10.0 * math.log10(math.log(2.0))
 
 #: Keys of a link file, table by table.
 LINK_SCHEMA: dict[str, list[Field]] = {
@@ -26,8 +28,10 @@ LINK_SCHEMA: dict[str, list[Field]] = {
         Field("frequency_hz", unit="Hz", required=False, low=1.0e6, high=3.0e12),
         Field("availability_percent", unit="%", required=False, low=0.0, high=100.0, low_open=True,
               high_open=True),
-        Field("range_m", unit="m", required=False, low=0.0, low_open=True, high=1.0e14),
-        Field("altitude_m", unit="m", required=False, low=0.0, low_open=True, high=1.0e12),
+        # 1 m floor: the free-space formula is a far-field law, and a vanishing range would overflow
+        # the maximum rate (10^(C/N0 / 10)) to infinity.
+        Field("range_m", unit="m", required=False, low=1.0, high=1.0e14),
+        Field("altitude_m", unit="m", required=False, low=1.0, high=1.0e12),
         Field("elevation_deg", unit="deg", low=0.0, high=90.0, low_open=True),
         Field("polarization_tilt_deg", unit="deg", required=False, default=45.0, low=0.0, high=90.0),
         Field("catalogs", "str", required=False),
@@ -66,7 +70,9 @@ LINK_SCHEMA: dict[str, list[Field]] = {
     "waveform": [
         Field("rate_bps", unit="bit/s", **_pos),
         Field("modcod", "str", required=False),
-        Field("ebn0_required_db", unit="dB", required=False, low=-2.0, high=40.0),
+        # Nothing closes below the Shannon limit 10 log10(ln 2) = -1.59 dB (Shannon 1948;
+        # tradeopt.physics.waveform.SHANNON_LIMIT_EBN0_DB).
+        Field("ebn0_required_db", unit="dB", required=False, low=_SHANNON_LIMIT_EBN0_DB, high=40.0),
         Field("implementation_loss_db", unit="dB", required=False, low=0.0, high=50.0),
         Field("required_margin_db", unit="dB", required=False, low=-100.0, high=100.0),
     ],

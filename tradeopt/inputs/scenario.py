@@ -52,10 +52,14 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
         Field("tle_line1", "str", required=False),
         Field("tle_line2", "str", required=False),
         Field("geostationary_longitude_deg", unit="deg", required=False, low=-180.0, high=360.0),
-        Field("range_m", unit="m", required=False, low=0.0, low_open=True, high=1.0e14),
+        # 100 km, the floor of altitude_m: no spacecraft link is shorter (and a vanishing range would
+        # make the power-flux density infinite).
+        Field("range_m", unit="m", required=False, low=100e3, high=1.0e14),
     ],
     "requirement": [
-        Field("rate_bps", unit="bit/s", required=False, **_pos),
+        # 1e15 bit/s is far beyond any radio link (the widest catalog band is 1.5 GHz); the bound
+        # keeps the symbol rate and the least RF power finite.
+        Field("rate_bps", unit="bit/s", required=False, low=0.0, low_open=True, high=1e15),
         Field("daily_volume_bits", unit="bit/day", required=False, **_pos),
         Field("volume_from_demand", "bool", required=False, default=False),
         Field("storage_bits", unit="bit", required=False, **_pos),
@@ -81,7 +85,7 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
         Field("code_rate", required=False, default=1.0, low=0.0, high=1.0, low_open=True),
     ],
     "network": [
-        Field("rate_bps", unit="bit/s", required=False, **_pos),
+        Field("rate_bps", unit="bit/s", required=False, low=0.0, low_open=True, high=1e15),
         Field("slot_s", unit="s", required=False, default=30.0, low=1.0, high=3600.0),
     ],
     "link": [
@@ -183,7 +187,6 @@ class Scenario:
     site_geometry: dict = field(default_factory=dict)  # site id -> (elevation_deg, range_m) from propagation
     base_dir: Path | None = None
     file: str = DEFAULT_SCENARIO_NAME
-    raw: dict = field(default_factory=dict)
 
     @property
     def orbit_kind(self) -> str:
@@ -275,10 +278,20 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     if len(volume_keys) != 1:
         raise InputError("give exactly one of rate_bps, daily_volume_bits or volume_from_demand = true", file=file,
                          where="table [requirement]")
-    if req["rate_bps"] is None and orbit["altitude_m"] is None and orbit["semi_major_axis_m"] is None \
-            and not orbit["tle_line1"] and orbit["geostationary_longitude_deg"] is None:
-        raise InputError("a daily volume needs contact time: give an orbit (elements, a TLE or a geostationary "
-                         "longitude), not only range_m", file=file, where="table [orbit]")
+    propagated = (bool(orbit["tle_line1"]) or orbit["geostationary_longitude_deg"] is not None
+                  or orbit["inclination_deg"] is not None)
+    if req["rate_bps"] is None and not propagated:
+        given = ("only range_m" if orbit["range_m"] is not None else
+                 "altitude_m or semi_major_axis_m without inclination_deg (a circular orbit over a spherical "
+                 "Earth, which has no passes)")
+        raise InputError(f"a daily volume needs contact time: give an orbit that can be propagated (elements with "
+                         f"inclination_deg, a TLE or a geostationary longitude), not {given}", file=file,
+                         where="table [orbit]")
+    if req["storage_bits"] is not None and req["rate_bps"] is not None:
+        raise InputError("storage_bits is checked against the data generated during the worst gap between "
+                         "contacts, which needs a daily volume: give daily_volume_bits or volume_from_demand = true "
+                         "instead of rate_bps, or remove storage_bits", file=file,
+                         where="key [requirement] storage_bits")
     payloads = _payloads(data, file, base_dir)
     if req["volume_from_demand"] and not payloads:
         raise InputError("volume_from_demand = true needs at least one [[payloads]] table", file=file,
@@ -308,9 +321,6 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                              "P.618-13 scintillation are stated; raise the mask", file=file,
                              where=f"key {where_t} min_elevation_deg")
         v["name"] = v["name"] or v["id"]
-        if v["min_elevation_deg"] >= 90.0:
-            raise InputError("expected an elevation mask below 90 deg", file=file,
-                             where=f"key {where_t} min_elevation_deg")
         sites.append(Site(**v))
     if not any(s.required for s in sites):
         raise InputError("no site has required = true; at least one site must close the link", file=file,
@@ -347,6 +357,12 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         if opts[key] is not None:
             _check_ids(opts[key], table, column, file=file, where=f"key [options] {key}", what=what)
 
+    d_max = opts["dish_curve_max_diameter_m"]
+    if d_max is not None and opts["dish_curve_step_m"] > d_max:
+        raise InputError(f"dish_curve_step_m = {opts['dish_curve_step_m']:g} m exceeds dish_curve_max_diameter_m = "
+                         f"{opts['dish_curve_max_diameter_m']:g} m, so the dish curve would have no point; give a "
+                         "smaller step", file=file, where="key [options] dish_curve_step_m")
+
     limits_raw = data.get("bandwidth_limits_hz", {})
     if not isinstance(limits_raw, dict):
         raise InputError("expected a table of band ID = bandwidth in Hz", file=file, where="table [bandwidth_limits_hz]")
@@ -370,7 +386,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         options={k: opts[k] for k in ("ground_antennas", "spacecraft_antennas", "amplifiers", "modcods")},
         dish_curve_max_diameter_m=opts["dish_curve_max_diameter_m"], dish_curve_step_m=opts["dish_curve_step_m"],
         orbit=orbit, requirement=req, contacts=contacts, payloads=payloads, framing=framing, arq=arq,
-        coding=coding, network=network, base_dir=base_dir, file=file, raw=data)
+        coding=coding, network=network, base_dir=base_dir, file=file)
 
 
 #: An ISO 8601 UTC date or time: ``2027-01-01``, ``2027-01-01T00:00``, ``2027-01-01T00:00:00[.fff][Z]``.

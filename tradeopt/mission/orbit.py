@@ -965,20 +965,11 @@ def merge_contacts(passes):
     s_ns = np.asarray(_as_ns(np.asarray(passes["start_utc"]), "start_utc"), dtype=np.int64).ravel()
     e_ns = np.asarray(_as_ns(np.asarray(passes["end_utc"]), "end_utc"), dtype=np.int64).ravel()
     sites = np.asarray(passes["site_index"], dtype=np.int64)
-    order = np.argsort(s_ns, kind="stable")
-    s_ns, e_ns, sites = s_ns[order], e_ns[order], sites[order]
     if s_ns.size == 0:
         return pd.DataFrame({"start_utc": np.zeros(0, "datetime64[ns]"), "end_utc": np.zeros(0, "datetime64[ns]"),
                              "duration_s": np.zeros(0), "n_sites": np.zeros(0, dtype=np.int64)})
-    reach = np.maximum.accumulate(e_ns)
-    new = np.empty(s_ns.size, dtype=bool)
-    new[0] = True
-    new[1:] = s_ns[1:] > reach[:-1]
-    first = np.flatnonzero(new)
-    group = np.cumsum(new) - 1
-    m_start = s_ns[first]
-    m_end = np.maximum.reduceat(e_ns, first)
-    n_sites = pd.DataFrame({"g": group, "s": sites}).groupby("g")["s"].nunique().to_numpy()
+    m_start, m_end, group, order = _merge_intervals(s_ns, e_ns)
+    n_sites = pd.DataFrame({"g": group, "s": sites[order]}).groupby("g")["s"].nunique().to_numpy()
     return pd.DataFrame({
         "start_utc": _ns_to_datetime64(m_start),
         "end_utc": _ns_to_datetime64(m_end),

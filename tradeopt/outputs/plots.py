@@ -73,7 +73,8 @@ def trade_plots(res, *, software: str) -> dict[str, bytes]:
         ax.set_xlabel("ground dish diameter [m]")
         ax.set_ylabel(label)
         ax.grid(alpha=0.3)
-        ax.legend()
+        if res.curves:
+            ax.legend()
     fig.suptitle(f"{res.scenario.name}: dish-size curve (diamond: a larger dish stops paying)")
     fig.tight_layout()
     out["dish_curve.png"] = _png(fig, software)

@@ -14,6 +14,7 @@ import json
 import numpy as np
 
 from ..trade.optimize import design_ids, design_link_dict, misses_text, reason_text
+from ..trade.sizing import KNEE_FRACTION
 from .provenance import CSV_FLOAT_FORMAT, clean_for_json, versions
 from .tables import budget_record
 
@@ -232,7 +233,8 @@ def summary_text(res, results_dir: str) -> str:
                 lines.append(f"  {band_id}: the optimum still improves up to the largest dish on the curve ({end:g} m)")
             else:
                 lines.append(f"  {band_id}: a ground dish beyond {curve['knee_diameter_m']:g} m stops paying "
-                             f"(within 2 % of the best {res.objective} on the curve, which ends at {end:g} m)")
+                             f"(within {100 * KNEE_FRACTION:g} % of the best {res.objective} on the curve, which "
+                             f"ends at {end:g} m)")
     m = s["mission"]
     if m.get("rate_source") in ("demand", "daily_volume_bits"):
         lines.append(f"  rate from the daily volume: {m['daily_volume_bits'] / 1e9:.4g} Gbit/day over "
@@ -389,7 +391,7 @@ def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str |
                   "variable_rate_bits_per_day": r["variable_rate_bits_per_day"]} for r in res.volume["sites"]]
         files["volume.csv"] = _csv(pd.DataFrame(vrows), vline)
     if res.mission is not None and res.mission.plan is not None:
-        from ..commands import contacts_record  # noqa: PLC0415
+        from .records import contacts_record  # noqa: PLC0415
 
         files["contacts.json"] = json.dumps(clean_for_json(contacts_record(res.scenario, res.mission.plan)),
                                             indent=2, sort_keys=True) + "\n"

@@ -39,7 +39,6 @@ _LABELS = {
 def budget_record(result: dict) -> dict:
     """The JSON-ready record of a budget (``tradeopt budget --json`` keys)."""
     rec = {k: v for k, v in result.items() if k not in ("tx_beamwidth_deg", "rx_beamwidth_deg")}
-    rec["other_losses_db"] = result["other_losses_db"]
     for k in ("tx_beamwidth_deg", "rx_beamwidth_deg"):
         v = result.get(k)
         rec[k] = None if v is None or v == float("inf") else v

@@ -91,7 +91,11 @@ def write_results(out_dir: str | os.PathLike, files: dict[str, str | bytes]) -> 
         raise InputError(f"cannot create the results folder here ({exc.strerror or exc.__class__.__name__})",
                          file=str(target)) from None
     _clean_stale(parent)
-    tmp = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-", dir=parent))
+    try:
+        tmp = Path(tempfile.mkdtemp(prefix=f"{TEMP_PREFIX}{os.getpid()}-", dir=parent))
+    except OSError as exc:
+        raise InputError(f"cannot write the results here ({exc.strerror or exc.__class__.__name__})",
+                         file=str(target)) from None
     try:
         for name, content in sorted(files.items()):
             dest = tmp / name

@@ -68,6 +68,9 @@ SCINTILLATION_STATED_RANGE_HZ = (4.0e9, 20.0e9)
 #: Earth-station altitudes accepted [m] (surface stations; the P.839 rain height is 0-5 km).
 ALTITUDE_RANGE_M = (-500.0, 6000.0)
 
+#: Elevation [deg] at which the gas and cloud terms are evaluated once, then scaled by
+#: sin(30 deg) / sin(el). Any elevation in 5-90 deg gives the same result: P.676-12 Annex 2
+#: (section 2.2) and P.840-7 both apply the cosecant law over 5-90 deg.
 _REFERENCE_ELEVATION_DEG = 30.0
 _lock = threading.Lock()
 _itur = None

@@ -42,7 +42,6 @@ class BlockResult:
     pfd_excess_db: np.ndarray
     reason: np.ndarray
     shortfall: np.ndarray
-    n_broken: np.ndarray
 
 
 def iter_blocks(shape: tuple, max_designs: int):
@@ -69,7 +68,7 @@ def iter_blocks(shape: tuple, max_designs: int):
                 yield slice(g0, g0 + 1), slice(a0, min(n_a, a0 + step))
 
 
-def evaluate_block(space, limits: Limits, gs: slice, as_: slice, *, with_indices: bool = True) -> BlockResult:
+def evaluate_block(space, limits: Limits, gs: slice, as_: slice) -> BlockResult:
     """Evaluate the designs of one block of a band's space.
 
     Returns
@@ -99,22 +98,17 @@ def evaluate_block(space, limits: Limits, gs: slice, as_: slice, *, with_indices
     amounts = [bw_excess, margin_short, pfd, mass_excess, dc_excess]
     reason = np.zeros(shape, dtype=np.int8)
     shortfall = np.zeros(shape)
-    n_broken = np.zeros(shape, dtype=np.int8)
     for code in range(len(broken), 0, -1):  # last assignment wins: the first broken constraint
         cond = np.broadcast_to(broken[code - 1], shape)
         reason[cond] = code
         shortfall = np.where(cond, np.broadcast_to(amounts[code - 1], shape), shortfall)
-        n_broken += cond
     flat = lambda v: np.broadcast_to(v, shape).reshape(-1)  # noqa: E731
-    if with_indices:
-        gi, ai, mi, ci = np.meshgrid(np.arange(gs.start, gs.stop), np.arange(as_.start, as_.stop),
-                                     np.arange(shape[2]), np.arange(shape[3]), indexing="ij")
-        idx = [v.reshape(-1) for v in (gi, ai, mi, ci)]
-    else:
-        idx = [np.zeros(0, dtype=int)] * 4
+    gi, ai, mi, ci = np.meshgrid(np.arange(gs.start, gs.stop), np.arange(as_.start, as_.stop),
+                                 np.arange(shape[2]), np.arange(shape[3]), indexing="ij")
+    idx = [v.reshape(-1) for v in (gi, ai, mi, ci)]
     return BlockResult(g=idx[0], a=idx[1], m=idx[2], c=idx[3], margin_db=margin.reshape(-1), mass_kg=flat(mass),
                        dc_power_w=flat(dc), bandwidth_hz=flat(bw), pfd_excess_db=flat(pfd), reason=reason.reshape(-1),
-                       shortfall=shortfall.reshape(-1), n_broken=n_broken.reshape(-1))
+                       shortfall=shortfall.reshape(-1))
 
 
 @dataclass

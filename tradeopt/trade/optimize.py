@@ -147,6 +147,20 @@ def budget_of_design(scenario, space: BandSpace, rec: dict, site) -> dict:
     return compute_link(spec)
 
 
+def _ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
+    """Gain minus pointing loss [dB] and clear-sky system noise temperature [K] of ground antenna ``g``.
+
+    Both are taken back out of the search's own vectors (X[g] holds the limiting site's terms), so
+    the evidence curves start from the numbers the search constrained.
+    """
+    st = space.site_terms
+    site = int(space.limiting_site_g[g])
+    t_clear_k = float(st.system_noise_temperature_k[g, 0] - st.sky_noise_increase_k[g, 0])
+    gain_minus_point_db = float(space.x_g[g] - (-st.free_space_loss_db[site] - st.atmospheric_db[g, site]
+                                                - 10.0 * np.log10(st.system_noise_temperature_k[g, site])))
+    return gain_minus_point_db, t_clear_k
+
+
 def _evidence(scenario, res: TradeResult) -> None:
     """Attenuation vs availability per site and band; margin vs elevation per band's best design."""
     for space in res.spaces:
@@ -176,11 +190,7 @@ def _evidence(scenario, res: TradeResult) -> None:
         if best is None or (scenario.altitude_m is None and scenario.range_m is None):
             continue
         rest = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c[best["c"]] + space.const_db
-        t_clear = float(space.site_terms.system_noise_temperature_k[g, 0] - space.site_terms.sky_noise_increase_k[g, 0])
-        gain_minus_point = space.x_g[g] - (
-            -space.site_terms.free_space_loss_db[space.limiting_site_g[g]]
-            - space.site_terms.atmospheric_db[g, space.limiting_site_g[g]]
-            - 10.0 * np.log10(space.site_terms.system_noise_temperature_k[g, space.limiting_site_g[g]]))
+        gain_minus_point, t_clear = _ground_terms(space, g)
         for site in [s for s in scenario.sites if s.required]:
             # The first point is the optimizer's own geometry at the mask (propagated range when the
             # scenario has it), so the curve starts at the margin the search constrained.
@@ -259,7 +269,10 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
         rec = found.best_by_band.get(space.band_id)
         if rec is not None:
             site = required[int(space.limiting_site_g[rec["g"]])]
-            res.band_budgets[space.band_id] = budget_of_design(scenario, space, rec, site)
+            if rec is best:  # already derived above, at every required site
+                res.band_budgets[space.band_id] = res.best_budgets[site.id]
+            else:
+                res.band_budgets[space.band_id] = budget_of_design(scenario, space, rec, site)
     if sizing:
         for space in spaces:
             if len(space.ground) == 0:
@@ -298,11 +311,7 @@ def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
     lower = edges[:-1]
     g = best["g"]
     row = space.ground.iloc[g]
-    t_clear = float(space.site_terms.system_noise_temperature_k[g, 0] - space.site_terms.sky_noise_increase_k[g, 0])
-    lim_site = int(space.limiting_site_g[g])
-    gain_minus_point = space.x_g[g] - (
-        -space.site_terms.free_space_loss_db[lim_site] - space.site_terms.atmospheric_db[g, lim_site]
-        - 10.0 * np.log10(space.site_terms.system_noise_temperature_k[g, lim_site]))
+    gain_minus_point, t_clear = _ground_terms(space, g)
     rest_c = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c + space.const_db  # (C,)
     info = space.modcods["info_bits_per_symbol"].to_numpy(float)
     roll = space.modcods["rolloff"].to_numpy(float)

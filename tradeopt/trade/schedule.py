@@ -13,14 +13,15 @@ import numpy as np
 from ..inputs.errors import InputError
 from ..mission import demand as dm
 from ..mission import orbit as orb
-from ..physics.units import EARTH_RADIUS_M
+from ..physics.units import EARTH_RADIUS_M, SPEED_OF_LIGHT_M_PER_S
 
 __all__ = ["DEFAULT_BIN_EDGES_DEG", "ContactPlan", "satrec_for", "contact_plan", "DemandPlan", "demand_plan",
-           "required_rate_bps", "apply_contact_geometry", "network_choice", "MissionContext", "prepare"]
+           "longest_range_m", "required_rate_bps", "apply_contact_geometry", "network_choice", "MissionContext",
+           "prepare"]
 
 #: Elevation bins of the histograms when the scenario gives none [deg].
 DEFAULT_BIN_EDGES_DEG = [5.0, 7.5, 10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.0, 50.0, 60.0, 70.0, 80.0, 90.0]
-SECONDS_PER_DAY = 86_400.0
+SECONDS_PER_DAY = dm.SECONDS_PER_DAY
 
 
 def _start(scenario) -> np.datetime64:
@@ -160,6 +161,10 @@ def apply_contact_geometry(scenario, plan: ContactPlan) -> None:
             raise InputError(f"site {s.id!r} sees the geostationary slot at {plan.geometry[s.id][0]:.2f} deg, below "
                              "the 5 deg for which ITU-R P.676-12 Annex 2 and P.618-13 scintillation are stated",
                              file=scenario.file, where="key [orbit] geostationary_longitude_deg")
+        if s.required and plan.geometry[s.id][0] < s.min_elevation_deg:
+            raise InputError(f"site {s.id!r} sees the geostationary slot at {plan.geometry[s.id][0]:.2f} deg, below "
+                             f"its {s.min_elevation_deg:g} deg mask; lower the mask, move the slot, or set "
+                             "required = false", file=scenario.file, where="table [[sites]]")
     scenario.site_geometry = dict(plan.geometry)
     if scenario.orbit_kind in ("tle", "elements") and scenario.altitude_m is None:
         sat = satrec_for(scenario)
@@ -179,11 +184,42 @@ class DemandPlan:
     warnings: list = field(default_factory=list)
 
 
-def demand_plan(scenario, *, contact_gap_s: float | None = None) -> DemandPlan:
+def longest_range_m(scenario) -> float:
+    """The longest slant range of the scenario's links [m], for the ARQ round trip.
+
+    The fixed range (deep space); for a geostationary slot, the range to the
+    farthest site that sees it above its mask (all sites when none does); for an
+    orbit, the spherical-Earth slant range from the apogee at the lowest site
+    mask. It depends on the orbit only, so ``tradeopt demand`` and ``optimize``
+    give the same ARQ efficiency.
+    """
+    from ..physics import path  # noqa: PLC0415
+
+    o = scenario.orbit
+    kind = scenario.orbit_kind
+    if kind == "range":
+        return float(o["range_m"])
+    sites = scenario.sites
+    if kind == "geostationary":
+        look = orb.geostationary_look_angles(o["geostationary_longitude_deg"], _site_table(sites))
+        seen = np.array([look.elevation_deg[i] >= s.min_elevation_deg for i, s in enumerate(sites)])
+        return float(np.max(look.range_m[seen] if seen.any() else look.range_m))
+    if kind == "tle":
+        sat = orb.satrec_from_tle(o["tle_line1"], o["tle_line2"])
+        apogee_m = sat.a * sat.radiusearthkm * 1000.0 * (1.0 + sat.ecco) - EARTH_RADIUS_M
+    else:
+        a_m = o["semi_major_axis_m"] if o["semi_major_axis_m"] is not None else EARTH_RADIUS_M + o["altitude_m"]
+        apogee_m = a_m * (1.0 + (o["eccentricity"] or 0.0)) - EARTH_RADIUS_M
+    lowest_mask_deg = min(s.min_elevation_deg for s in sites)
+    return float(path.slant_range_m(apogee_m, lowest_mask_deg))
+
+
+def demand_plan(scenario) -> DemandPlan:
     """Run the demand chain of the scenario's payloads.
 
-    The ARQ round trip is the light time of the orbit (twice the largest range)
-    plus nothing else; frame time = frame bits / link rate when a rate is given.
+    The ARQ round trip is twice the light time over :func:`longest_range_m`
+    (no processing time); frame time = frame bits / link rate, the rate being
+    ``[requirement] rate_bps`` or ``[network] rate_bps``.
     """
     if not scenario.payloads:
         raise InputError("no [[payloads]] table; give at least one payload to compute the demand",
@@ -223,8 +259,7 @@ def demand_plan(scenario, *, contact_gap_s: float | None = None) -> DemandPlan:
             raise InputError("ARQ efficiency needs a link rate for the frame time: give [requirement] rate_bps or "
                              "[network] rate_bps", file=scenario.file, where="table [arq]")
         frame_bits = 8.0 * (fr["frame_data_bytes"] + fr["header_bytes"] + fr["trailer_bytes"])
-        rng = scenario.range_m or (float(scenario.altitude_m) * 3.0 if scenario.altitude_m else 3.0e6)
-        round_trip = 2.0 * rng / 299_792_458.0
+        round_trip = 2.0 * longest_range_m(scenario) / SPEED_OF_LIGHT_M_PER_S
         a_eff = float(dm.arq_efficiency(arq["scheme"], frame_error_rate=arq["frame_error_rate"],
                                         frame_time_s=frame_bits / rate, round_trip_s=round_trip,
                                         window_frames=arq["window_frames"]))

@@ -20,6 +20,9 @@ __all__ = ["KNEE_FRACTION", "DishModel", "dish_model", "min_dish_diameter_m", "l
 
 #: A larger dish "stops paying" once the optimum is within this fraction of its best value on the grid.
 KNEE_FRACTION = 0.02
+#: Smallest ground dish on the curve [m] (a design choice, the floor of ``dish_curve_max_diameter_m``):
+#: smaller grid points are dropped unless the whole grid lies below it.
+DISH_CURVE_MIN_DIAMETER_M = 0.5
 
 
 class DishModel:
@@ -58,7 +61,14 @@ def dish_model(scenario, space) -> DishModel:
         d_max = float(space.ground["diameter_m"].max())
     step = scenario.dish_curve_step_m
     grid = np.round(np.arange(step, d_max + step / 2, step), 6)
-    grid = grid[grid >= 0.5] if (grid >= 0.5).any() else grid
+    if grid.size == 0:
+        from ..inputs.errors import InputError  # noqa: PLC0415
+
+        raise InputError(f"dish_curve_step_m = {step:g} m leaves no diameter up to the curve's largest dish, "
+                         f"{d_max:g} m ({space.band_id}); give a step of at most {d_max:g} m", file=scenario.file,
+                         where="key [options] dish_curve_step_m")
+    keep = grid >= DISH_CURVE_MIN_DIAMETER_M
+    grid = grid[keep] if keep.any() else grid
     return DishModel(scenario, space, grid)
 
 

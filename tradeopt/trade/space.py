@@ -258,7 +258,8 @@ def build_band_space(scenario, band_id: str) -> BandSpace:
         notes.append(f"{band_id}: no power-flux-density limit in the catalog covers {f_hz / 1e9:g} GHz")
         pfd_source = ""
     else:
-        dens = 10.0 * np.log10(np.minimum(1.0, float(pfd_row.reference_bandwidth_hz) / bw_c))
+        ref_bw = float(pfd_row.reference_bandwidth_hz)
+        dens = 10.0 * np.log10(ref_bw / np.maximum(bw_c, ref_bw))  # min(1, ref / bw) without overflow
         pfd_source = f"{pfd_row.source} [{pfd_row.confidence}]"
     eirp_am = p_dbw[None, :] + (a_gain - a_line)[:, None]
     notes.extend(f"{band_id}: {n}" for n in propagation.validity_notes(f_hz))
