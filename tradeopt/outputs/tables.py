@@ -79,6 +79,8 @@ def format_budget(result: dict, *, title: str = "") -> str:
     status = "closes" if result["margin_db"] >= result["required_margin_db"] else "DOES NOT CLOSE"
     lines.append(f"  link {status}: margin {result['margin_db']:.2f} dB against {result['required_margin_db']:.2f}"
                  " dB required")
+    lines.append("  caution: a design-stage estimate; spectrum use needs coordination and a licence from the "
+                 "regulator; RF exposure near transmitting antennas follows local codes (README, Cautions)")
     if result.get("assumptions"):
         lines.append("assumptions:")
         lines.extend(f"  - {a}" for a in result["assumptions"])
