@@ -15,6 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from tradeopt.physics import noise
+from kinds import make_assert_kinds
 
 FAST = settings(max_examples=60, deadline=None)
 INDEX = pd.Index(["x", "y", "z"], name="station")
@@ -25,23 +26,7 @@ temperatures = st.floats(min_value=0.0, max_value=3000.0)
 feed_losses = st.floats(min_value=0.0, max_value=10.0)
 
 
-def assert_kinds(func, args, i, values, **kwargs):
-    """Vary argument ``i``: scalar -> numpy float, ndarray -> ndarray, Series -> Series; same numbers."""
-    def call(v):
-        a = list(args)
-        a[i] = v
-        return func(*a, **kwargs)
-
-    scalars = [call(float(v)) for v in values]
-    for s in scalars:
-        assert type(s) is np.float64
-    arr = call(np.asarray(values, dtype=float))
-    assert type(arr) is np.ndarray
-    np.testing.assert_allclose(arr, scalars, rtol=1e-12)
-    ser = call(pd.Series(values, index=INDEX, dtype=float))
-    assert isinstance(ser, pd.Series)
-    assert ser.index.equals(INDEX)
-    np.testing.assert_allclose(ser.to_numpy(), scalars, rtol=1e-12)
+assert_kinds = make_assert_kinds(INDEX)
 
 
 # ---------------------------------------------------------------- sky noise

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import restore_kind, wavelength_m
+from .units import restore_kind, wavelength_m, widest
 
 __all__ = [
     "BEAMWIDTH_COEFFICIENT_DEG",
@@ -32,10 +32,6 @@ __all__ = [
 BEAMWIDTH_COEFFICIENT_DEG = 70.0
 #: Largest theta / theta_3dB for which the parabolic pointing-loss law is stated (RR Res. 553 Fig. 1).
 POINTING_LAW_LIMIT = 0.5
-
-
-def _pick_like(*args):
-    return max(args, key=np.ndim)
 
 
 def parabolic_gain_dbi(diameter_m, frequency_hz, efficiency):
@@ -60,7 +56,7 @@ def parabolic_gain_dbi(diameter_m, frequency_hz, efficiency):
     Kraus and Marhefka, *Antennas*, 3rd ed. (2002), aperture antennas.
     """
     ratio = np.multiply(efficiency, (np.pi * np.divide(diameter_m, wavelength_m(frequency_hz))) ** 2)
-    return restore_kind(10.0 * np.log10(ratio), _pick_like(diameter_m, frequency_hz, efficiency))
+    return restore_kind(10.0 * np.log10(ratio), widest(diameter_m, frequency_hz, efficiency))
 
 
 def parabolic_diameter_m(gain_dbi, frequency_hz, efficiency):
@@ -71,7 +67,7 @@ def parabolic_diameter_m(gain_dbi, frequency_hz, efficiency):
     Kraus and Marhefka, *Antennas*, 3rd ed. (2002).
     """
     d = wavelength_m(frequency_hz) / np.pi * np.sqrt(np.power(10.0, np.divide(gain_dbi, 10.0)) / np.asarray(efficiency, dtype=float))
-    return restore_kind(d, _pick_like(gain_dbi, frequency_hz, efficiency))
+    return restore_kind(d, widest(gain_dbi, frequency_hz, efficiency))
 
 
 def half_power_beamwidth_deg(diameter_m, frequency_hz, *, coefficient_deg=BEAMWIDTH_COEFFICIENT_DEG):
@@ -96,7 +92,7 @@ def half_power_beamwidth_deg(diameter_m, frequency_hz, *, coefficient_deg=BEAMWI
     Maral and Bousquet, *Satellite Communications Systems*, 5th ed., section 2.1.
     """
     bw = coefficient_deg * wavelength_m(frequency_hz) / np.asarray(diameter_m, dtype=float)
-    return restore_kind(bw, _pick_like(diameter_m, frequency_hz))
+    return restore_kind(bw, widest(diameter_m, frequency_hz))
 
 
 def pointing_loss_db(pointing_error_deg, beamwidth_deg):
@@ -123,7 +119,7 @@ def pointing_loss_db(pointing_error_deg, beamwidth_deg):
     *Satellite Communications Systems*, 5th ed., section 2.1.
     """
     x = np.divide(pointing_error_deg, beamwidth_deg)
-    return restore_kind(12.0 * x**2, _pick_like(pointing_error_deg, beamwidth_deg))
+    return restore_kind(12.0 * x**2, widest(pointing_error_deg, beamwidth_deg))
 
 
 def polarization_loss_db(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_deg=0.0, *, same_sense=True):
@@ -174,4 +170,4 @@ def polarization_loss_db(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_d
     rho = np.clip(0.5 + num / den, 0.0, 1.0)
     with np.errstate(divide="ignore"):
         loss = -10.0 * np.log10(rho)
-    return restore_kind(loss, _pick_like(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_deg))
+    return restore_kind(loss, widest(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_deg))

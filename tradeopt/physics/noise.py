@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import COSMIC_BACKGROUND_K, REFERENCE_TEMPERATURE_K, restore_kind
+from .units import COSMIC_BACKGROUND_K, REFERENCE_TEMPERATURE_K, restore_kind, widest
 
 __all__ = [
     "MEAN_RADIATING_TEMPERATURE_K",
@@ -26,10 +26,6 @@ __all__ = [
 
 #: Default medium (mean radiating) temperature without local data [K] (ITU-R P.618-14 section 3).
 MEAN_RADIATING_TEMPERATURE_K = 275.0
-
-
-def _pick_like(*args):
-    return max(args, key=np.ndim)
 
 
 def mean_radiating_temperature_k(surface_temperature_k):
@@ -63,7 +59,7 @@ def sky_noise_temperature_k(attenuation_db, *, mean_radiating_temperature_k=MEAN
     """
     transmissivity = np.power(10.0, -np.asarray(attenuation_db, dtype=float) / 10.0)
     t = np.asarray(mean_radiating_temperature_k, dtype=float) * (1.0 - transmissivity) + COSMIC_BACKGROUND_K * transmissivity
-    return restore_kind(t, _pick_like(attenuation_db, mean_radiating_temperature_k))
+    return restore_kind(t, widest(attenuation_db, mean_radiating_temperature_k))
 
 
 def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *, mean_radiating_temperature_k=MEAN_RADIATING_TEMPERATURE_K):
@@ -92,7 +88,7 @@ def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *, mean_radia
     a = sky_noise_temperature_k(attenuation_db, mean_radiating_temperature_k=mean_radiating_temperature_k)
     b = sky_noise_temperature_k(clear_sky_attenuation_db, mean_radiating_temperature_k=mean_radiating_temperature_k)
     return restore_kind(np.asarray(a) - np.asarray(b),
-                        _pick_like(attenuation_db, clear_sky_attenuation_db, mean_radiating_temperature_k))
+                        widest(attenuation_db, clear_sky_attenuation_db, mean_radiating_temperature_k))
 
 
 def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperature_k, *,
@@ -134,7 +130,7 @@ def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperat
          + np.asarray(physical_temperature_k, dtype=float) * (1.0 - 1.0 / loss)
          + np.asarray(lna_temperature_k, dtype=float)
          + np.asarray(following_temperature_k, dtype=float) / gain)
-    return restore_kind(t, _pick_like(antenna_temperature_k, feed_loss_db, lna_temperature_k,
+    return restore_kind(t, widest(antenna_temperature_k, feed_loss_db, lna_temperature_k,
                                       physical_temperature_k, following_temperature_k, lna_gain_db))
 
 
@@ -146,7 +142,7 @@ def noise_figure_to_temperature_k(noise_figure_db, *, reference_temperature_k=RE
     IEEE Std 161 noise-figure definition, T0 = 290 K.
     """
     t = reference_temperature_k * (np.power(10.0, np.asarray(noise_figure_db, dtype=float) / 10.0) - 1.0)
-    return restore_kind(t, _pick_like(noise_figure_db, reference_temperature_k))
+    return restore_kind(t, widest(noise_figure_db, reference_temperature_k))
 
 
 def gt_dbk(gain_dbi, system_noise_temperature_k):
@@ -157,4 +153,4 @@ def gt_dbk(gain_dbi, system_noise_temperature_k):
     Maral and Bousquet, *Satellite Communications Systems*, 5th ed., section 5.5.
     """
     g = np.asarray(gain_dbi, dtype=float) - 10.0 * np.log10(np.asarray(system_noise_temperature_k, dtype=float))
-    return restore_kind(g, _pick_like(gain_dbi, system_noise_temperature_k))
+    return restore_kind(g, widest(gain_dbi, system_noise_temperature_k))

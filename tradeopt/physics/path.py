@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import EARTH_RADIUS_M, SPEED_OF_LIGHT_M_PER_S, restore_kind
+from .units import EARTH_RADIUS_M, SPEED_OF_LIGHT_M_PER_S, restore_kind, widest
 
 __all__ = ["free_space_loss_db", "slant_range_m", "elevation_from_range_deg"]
 
@@ -36,7 +36,7 @@ def free_space_loss_db(range_m, frequency_hz):
     Recommendation ITU-R P.525-4 (2019), eq. (4).
     """
     loss = 20.0 * np.log10(4.0 * np.pi * np.multiply(range_m, frequency_hz) / SPEED_OF_LIGHT_M_PER_S)
-    return restore_kind(loss, range_m if np.ndim(range_m) >= np.ndim(frequency_hz) else frequency_hz)
+    return restore_kind(loss, widest(range_m, frequency_hz))
 
 
 def slant_range_m(altitude_m, elevation_deg, *, earth_radius_m=EARTH_RADIUS_M):
@@ -67,7 +67,7 @@ def slant_range_m(altitude_m, elevation_deg, *, earth_radius_m=EARTH_RADIUS_M):
     e = np.radians(elevation_deg)
     r = earth_radius_m
     rng = np.sqrt((r + np.asarray(altitude_m, dtype=float)) ** 2 - (r * np.cos(e)) ** 2) - r * np.sin(e)
-    like = elevation_deg if np.ndim(elevation_deg) >= np.ndim(altitude_m) else altitude_m
+    like = widest(elevation_deg, altitude_m)
     return restore_kind(rng, like)
 
 
@@ -99,5 +99,5 @@ def elevation_from_range_deg(altitude_m, range_m, *, earth_radius_m=EARTH_RADIUS
     h = np.asarray(altitude_m, dtype=float)
     d = np.asarray(range_m, dtype=float)
     s = ((r + h) ** 2 - r**2 - d**2) / (2.0 * r * d)
-    like = range_m if np.ndim(range_m) >= np.ndim(altitude_m) else altitude_m
+    like = widest(range_m, altitude_m)
     return restore_kind(np.degrees(np.arcsin(np.clip(s, -1.0, 1.0))), like)

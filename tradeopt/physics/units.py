@@ -27,6 +27,7 @@ __all__ = [
     "dbw_to_watts",
     "wavelength_m",
     "restore_kind",
+    "widest",
 ]
 
 #: Speed of light in vacuum [m/s], exact (SI 2019).
@@ -41,6 +42,11 @@ EARTH_RADIUS_M = 6_371_008.8
 REFERENCE_TEMPERATURE_K = 290.0
 #: Cosmic microwave background brightness temperature used by ITU-R P.618 [K].
 COSMIC_BACKGROUND_K = 2.7
+
+
+def widest(*args):
+    """The argument with the most dimensions (the kind a result should take)."""
+    return max(args, key=np.ndim)
 
 
 def restore_kind(value, like):
