@@ -123,7 +123,7 @@ def test_catalog_check_subprocess_bundled_and_bad(cats):
                         text=True, timeout=120)
     assert ok.returncode == 0, ok.stderr
     assert ok.stderr == ""
-    line = set_cell(cats, "ground_antennas", "dish-2.4m", "diameter_m", "-2.4", band="S")
+    line = set_cell(cats, "ground_antennas", "gnd-020", "diameter_m", "-2.0", band="S")
     bad = subprocess.run([sys.executable, "-m", "tradeopt.cli", "catalog", "check", "--catalogs", str(cats)],
                          capture_output=True, text=True, timeout=120)
     assert bad.returncode == 2
@@ -195,7 +195,7 @@ def _duplicate_id(c):
 
 
 def _duplicate_ground_antenna_band(c):
-    line = set_cell(c, "ground_antennas", "dish-2.4m", "band", "S", band="X")
+    line = set_cell(c, "ground_antennas", "gnd-020", "band", "S", band="X")
     return "ground_antennas.csv", line, "ground_antenna_id", "duplicate item"
 
 
@@ -285,8 +285,8 @@ def _pfd_angles_reversed(c):
 
 
 def _two_diameters(c):
-    line = set_cell(c, "ground_antennas", "dish-3.7m", "diameter_m", "3.8", band="Ka")
-    return "ground_antennas.csv", line, "diameter_m", "differs from 3.7"
+    line = set_cell(c, "ground_antennas", "gnd-035", "diameter_m", "3.6", band="Ka")
+    return "ground_antennas.csv", line, "diameter_m", "differs from 3.5"
 
 
 def _modcod_info_bits_above_bits(c):
@@ -330,13 +330,13 @@ BAD_CATALOGS = [
     _cell("amplifiers", "X-SSPA-8W", "rf_power_w", "", "missing"),
     _cell("amplifiers", "X-SSPA-8W", "rf_power_w", "0", "expected a number W > 0"),
     _cell("amplifiers", "X-SSPA-8W", "dc_to_rf_efficiency", "1.5", "<= 1"),
-    _cell("ground_antennas", "dish-5.4m", "diameter_m", "-5.4", "expected a number m > 0", band="X"),
-    _cell("ground_antennas", "dish-5.4m", "diameter_m", "0", "expected a number m > 0", band="X"),
-    _cell("ground_antennas", "dish-5.4m", "efficiency", "0", "expected a number > 0 and <= 1", band="X"),
-    _cell("ground_antennas", "dish-5.4m", "efficiency", "1.5", "expected a number > 0 and <= 1, got 1.5",
+    _cell("ground_antennas", "gnd-050", "diameter_m", "-5.0", "expected a number m > 0", band="X"),
+    _cell("ground_antennas", "gnd-050", "diameter_m", "0", "expected a number m > 0", band="X"),
+    _cell("ground_antennas", "gnd-050", "efficiency", "0", "expected a number > 0 and <= 1", band="X"),
+    _cell("ground_antennas", "gnd-050", "efficiency", "1.5", "expected a number > 0 and <= 1, got 1.5",
           band="X"),
-    _cell("ground_antennas", "dish-5.4m", "lna_noise_temperature_k", "0", "expected a number K > 0", band="X"),
-    _cell("ground_antennas", "dish-5.4m", "band", "Ku", "expected one of 'S', 'X', 'Ka', got 'Ku'", band="X"),
+    _cell("ground_antennas", "gnd-050", "lna_noise_temperature_k", "0", "expected a number K > 0", band="X"),
+    _cell("ground_antennas", "gnd-050", "band", "Ku", "expected one of 'S', 'X', 'Ka', got 'Ku'", band="X"),
     _cell("amplifiers", "X-SSPA-8W", "band", "L", "expected one of 'S', 'X', 'Ka', got 'L'"),
     _cell("amplifiers", "X-SSPA-8W", "band", "KA", "did you mean 'Ka'?"),
     _cell("bands", "X-DOWN", "direction", "down", "did you mean 'downlink'?"),

@@ -161,8 +161,8 @@ def test_catalog_id_example_resolves_to_catalog_numbers():
     assert spec.amplifier_id == "X-SSPA-8W"
     assert spec.tx.gain_dbi == 10.0                   # X-ISOFLUX
     assert spec.tx_line_loss_db == 1.0                # X-ISOFLUX line loss from the catalog
-    assert (spec.rx.diameter_m, spec.rx.efficiency, spec.rx.pointing_error_deg) == (5.4, 0.62, 0.02)
-    # Friis cascade of dish-5.4m X: T_ant 45 K through a 0.4 dB feed at 290 K, then a 55 K LNA.
+    assert (spec.rx.diameter_m, spec.rx.efficiency, spec.rx.pointing_error_deg) == (5.0, 0.62, 0.02)
+    # Friis cascade of gnd-050 X: T_ant 45 K through a 0.4 dB feed at 290 K, then a 55 K LNA.
     loss = 10 ** 0.04
     assert spec.rx_clear_sky_noise_temperature_k == pytest.approx(45 / loss + 290 * (1 - 1 / loss) + 55, rel=1e-12)
     assert spec.rx_clear_sky_noise_temperature_k == pytest.approx(121.557, abs=1e-3)

@@ -88,9 +88,9 @@ BAD = {
     "no_sites": (BASE[: BASE.index("[[sites]]")], ["[[sites]]"]),
     "duplicate_site_id": (_edit('id = "saffron-reach"', 'id = "gannet-point"'),
                           ["[[sites]] #2 id", "duplicate", "'gannet-point'"]),
-    "unknown_option_id": (_edit("[bandwidth_limits_hz]", '[options]\nground_antennas = ["dish-4.0m"]\n\n'
+    "unknown_option_id": (_edit("[bandwidth_limits_hz]", '[options]\nground_antennas = ["gnd-040"]\n\n'
                                                         "[bandwidth_limits_hz]"),
-                          ["[options] ground_antennas", "'dish-4.0m'"]),
+                          ["[options] ground_antennas", "'gnd-040'"]),
     "bandwidth_limit_other_band": (_edit('"X-DOWN" = 300e6', '"S-DOWN" = 6e6'),
                                    ["[bandwidth_limits_hz] S-DOWN"]),
     "empty_file": ("", ["empty", "[scenario]"]),
