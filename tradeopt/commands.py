@@ -54,7 +54,11 @@ def run_contacts(*, scenario_path=None, days=None, as_json=False) -> int:
         return 0
     lines = [f"tradeopt contacts: {scenario.name}, {rec['days']:g} days from {rec['start_utc']} ({plan.kind} orbit)"]
     if plan.tle:
-        lines += [f"  TLE propagated: {plan.tle[0]}", f"                 {plan.tle[1]}"]
+        label = "synthetic TLE propagated" if plan.kind == "elements" else "TLE propagated"
+        pad = " " * (len(label) + 4)
+        lines += [f"  {label}: {plan.tle[0]}", f"{pad}{plan.tle[1]}"]
+        if plan.kind == "elements":
+            lines.append(f"{pad}(built from the scenario's orbital elements, not an observed element set)")
     lines.append(f"  {'site':<18} {'mask':>6} {'passes/day':>11} {'contact/day':>12} {'mean gap':>10} {'worst gap':>10}")
     for s in rec["sites"]:
         lines.append(f"  {s['id']:<18} {s['min_elevation_deg']:>5g}° {s['contacts_per_day']:>11.2f} "

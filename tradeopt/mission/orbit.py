@@ -477,7 +477,9 @@ def export_tle(satrec):
     line1, line2 : str
         The two 69-character lines with valid checksums. Fields are rounded to
         the TLE format (epoch to 1e-8 day, mean motion to 1e-8 rev/day,
-        eccentricity to 1e-7).
+        eccentricity to 1e-7). Exported from a record of
+        :func:`satrec_from_elements`, it is a synthetic TLE, not an observed
+        element set; outputs label it so.
 
     References
     ----------

@@ -36,6 +36,8 @@ def contacts_record(scenario, plan) -> dict:
     orbit = {"kind": plan.kind}
     if plan.tle is not None:
         orbit["tle"] = list(plan.tle)
+        orbit["tle_source"] = ("synthetic: built from the scenario's orbital elements, not an observed element set"
+                               if plan.kind == "elements" else "given in the scenario")
     if plan.kind == "geostationary":
         orbit["geostationary_longitude_deg"] = scenario.orbit["geostationary_longitude_deg"]
     return {"scenario": scenario.name, "start_utc": _iso(plan.start_utc), "days": plan.days, "orbit": orbit,

@@ -1,7 +1,7 @@
 """Contacts, data demand and delivered volume for a scenario (orchestration of tradeopt.mission).
 
 No physics here: orbits, passes and histograms come from :mod:`tradeopt.mission.orbit`,
-the demand chain from :mod:`tradeopt.mission.demand`, volumes from
+the demand steps from :mod:`tradeopt.mission.demand`, volumes from
 :mod:`tradeopt.mission.volume` and the network choice from :mod:`tradeopt.mission.network`.
 """
 from __future__ import annotations
@@ -174,7 +174,7 @@ def apply_contact_geometry(scenario, plan: ContactPlan) -> None:
 
 @dataclass
 class DemandPlan:
-    """The demand chain and how each compression ratio was obtained."""
+    """The demand steps and how each compression ratio was obtained."""
 
     result: object  # tradeopt.mission.demand.DemandResult
     compression: list  # per payload: dict name, ratio, codec, measured ratios (or None)
@@ -215,7 +215,7 @@ def longest_range_m(scenario) -> float:
 
 
 def demand_plan(scenario) -> DemandPlan:
-    """Run the demand chain of the scenario's payloads.
+    """Run the demand steps of the scenario's payloads.
 
     The ARQ round trip is twice the light time over :func:`longest_range_m`
     (no processing time); frame time = frame bits / link rate, the rate being
