@@ -12,10 +12,10 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import InputError
-from .schema import MISSING, Field, check_known, convert
+from .schema import MISSING, Field, check_known, convert, read_input_bytes
 
-__all__ = ["Catalog", "CATALOG_SCHEMAS", "CATALOG_FILES", "default_catalog_dir", "load_catalog",
-           "read_catalog_csv"]
+__all__ = ["Catalog", "CATALOG_SCHEMAS", "CATALOG_FILES", "CATALOG_MAX_BYTES", "default_catalog_dir",
+           "load_catalog", "read_catalog_csv"]
 
 BANDS = ("S", "X", "Ka")
 _pos = dict(low=0.0, low_open=True)
@@ -92,6 +92,10 @@ CATALOG_SCHEMAS: dict[str, list[Field]] = {
     ],
 }
 
+#: Largest catalog CSV file read [byte] (16 MiB; the bundled ones are a few kB). A larger file, or
+#: anything but a regular file (a named pipe, a device), is refused before it is read.
+CATALOG_MAX_BYTES = 16 * 1024 * 1024
+
 #: File name of each catalog inside a catalog directory.
 CATALOG_FILES = {name: f"{name}.csv" for name in CATALOG_SCHEMAS}
 
@@ -129,19 +133,20 @@ def read_catalog_csv(path: Path, name: str):
     Raises
     ------
     InputError
-        Missing file, empty file, malformed CSV, unknown or missing column, bad
-        value, duplicate ID.
+        Missing file, not a regular file (a named pipe, a device), larger than
+        :data:`CATALOG_MAX_BYTES`, empty file, malformed CSV, unknown or missing
+        column, bad value, duplicate ID.
     """
     import pandas as pd  # noqa: PLC0415
 
     fname = str(path)
     schema = CATALOG_SCHEMAS[name]
+    raw = read_input_bytes(path, limit_bytes=CATALOG_MAX_BYTES, what="a CSV catalog file")
     try:
         # utf-8-sig: a byte-order mark written by a spreadsheet is not part of the first column name.
-        text = Path(path).read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise InputError("file not found; expected a CSV catalog here", file=fname) from None
-    except (OSError, UnicodeDecodeError) as exc:
+        # Line ends are translated as a text-mode read does (\r\n and \r become \n).
+        text = raw.decode("utf-8-sig").replace("\r\n", "\n").replace("\r", "\n")
+    except UnicodeDecodeError as exc:
         raise InputError(f"cannot be read as UTF-8 text ({exc.__class__.__name__})", file=fname) from None
     rows_lines = []
     reader = csv.reader(io.StringIO(text, newline=""), strict=True)

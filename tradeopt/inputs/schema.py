@@ -8,15 +8,23 @@ from __future__ import annotations
 
 import difflib
 import math
+import os
 import re
+import stat
 from dataclasses import dataclass
 from typing import Any
 
 from .errors import InputError
 
-__all__ = ["Field", "convert", "check_known", "read_toml", "MISSING"]
+__all__ = ["Field", "convert", "check_known", "read_toml", "read_input_bytes", "MISSING", "TOML_MAX_BYTES",
+           "INT64_MAX"]
 
 MISSING = object()
+
+#: Largest scenario or link file read [byte] (4 MiB; such files are a few kB).
+TOML_MAX_BYTES = 4 * 1024 * 1024
+#: Largest integer an ``"int"`` field accepts (a signed 64-bit integer) [-].
+INT64_MAX = 2**63 - 1
 
 #: A plain decimal number as written in a CSV cell (no underscores, no hex; ``nan``/``inf`` are
 #: caught separately as non-finite).
@@ -79,6 +87,22 @@ class Field:
         return "a non-empty text"
 
 
+class _Shown(str):
+    """Text shown as is in a message (not quoted)."""
+
+    def __repr__(self) -> str:
+        return str(self)
+
+
+def _short_int(value: int) -> _Shown:
+    """A huge integer for a message: its first digits and its length, never thousands of digits."""
+    magnitude = abs(value)
+    if magnitude.bit_length() <= 64:
+        return _Shown(f"{value}")
+    digits = math.floor(magnitude.bit_length() * math.log10(2)) + 1  # within one of the digit count
+    return _Shown(f"{'a negative' if value < 0 else 'an'} integer of about {digits} digits")
+
+
 def _fail(field: Field, value, file, where, detail: str = "") -> InputError:
     shown = repr(value) if not isinstance(value, float) else f"{value:g}"
     extra = f" ({detail})" if detail else ""
@@ -138,8 +162,17 @@ def convert(raw, field: Field, *, file: str | None, where: str, typed: bool = Fa
             if not _NUMBER_TEXT.fullmatch(text):
                 raise _fail(field, text, file, where)
             value = float(text)
-        elif isinstance(raw, (int, float)):
-            value = float(raw)
+        elif isinstance(raw, int):
+            # TOML integers have no size limit: one beyond 64 bits is never a meant value (and one
+            # beyond about 1e308 does not fit a float at all).
+            if kind == "int" and not -INT64_MAX - 1 <= raw <= INT64_MAX:
+                raise _fail(field, _short_int(raw), file, where, "beyond the 64-bit integer range")
+            try:
+                value = float(raw)
+            except OverflowError:
+                raise _fail(field, _short_int(raw), file, where, "too large for a floating-point number") from None
+        elif isinstance(raw, float):
+            value = raw
         else:
             raise _fail(field, raw, file, where)
         if not math.isfinite(value):
@@ -166,9 +199,15 @@ def convert(raw, field: Field, *, file: str | None, where: str, typed: bool = Fa
             raise _fail(field, raw, file, where)
         values = []
         for item in raw:
-            if isinstance(item, bool) or not isinstance(item, (int, float)) or not math.isfinite(float(item)):
+            if isinstance(item, bool) or not isinstance(item, (int, float)):
                 raise _fail(field, item, file, where)
-            values.append(float(item))
+            try:
+                value = float(item)
+            except OverflowError:  # a TOML integer beyond about 1e308
+                raise _fail(field, _short_int(item), file, where, "too large for a floating-point number") from None
+            if not math.isfinite(value):
+                raise _fail(field, item, file, where)
+            values.append(value)
         return values
     if kind == "str_list":
         if isinstance(raw, str):
@@ -218,8 +257,91 @@ def check_known(names, known, *, file: str | None, where: str, what: str = "colu
             raise InputError(f"unknown {what} {name!r}{tip}", file=file, where=where)
 
 
+_FILE_KINDS = ((stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a named pipe (FIFO)"),
+               (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+               (stat.S_ISSOCK, "a socket"))
+
+
+def _not_regular(mode: int) -> str | None:
+    """What a file that is not a regular file is, for the message; None for a regular file."""
+    if stat.S_ISREG(mode):
+        return None
+    for test, noun in _FILE_KINDS:
+        if test(mode):
+            return noun
+    return "not a regular file"
+
+
+def _size_text(n_bytes: int) -> str:
+    """A size in bytes as MiB or GiB text for messages."""
+    if n_bytes >= 1024**3:
+        return f"{n_bytes / 1024**3:.1f} GiB"
+    return f"{n_bytes / 1024**2:.1f} MiB"
+
+
+def read_input_bytes(path, *, limit_bytes: int, what: str) -> bytes:
+    """Read a whole input file, refusing anything but a regular file of bounded size.
+
+    A named pipe, a device (``/dev/zero``), a socket or a folder is refused
+    before it is read, so reading never blocks and never grows without bound.
+    The file is opened without blocking (``O_NONBLOCK`` where the system has
+    it) and checked again on the open descriptor, then at most
+    ``limit_bytes + 1`` bytes are read.
+
+    Parameters
+    ----------
+    path : path
+        The file (a symbolic link is followed).
+    limit_bytes : int
+        Largest accepted size [byte].
+    what : str
+        What the file should be, for the message (e.g. ``"a CSV catalog"``).
+
+    Returns
+    -------
+    data : bytes
+        The file's contents.
+
+    Raises
+    ------
+    InputError
+        Missing, unreadable, not a regular file, or larger than ``limit_bytes``.
+    """
+    fname = str(path)
+
+    def refuse(message: str) -> InputError:
+        return InputError(message, file=fname)
+
+    try:
+        kind = _not_regular(os.stat(path).st_mode)
+        if kind is not None:
+            raise refuse(f"is {kind}, not a regular file; expected {what}")
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0))
+    except FileNotFoundError:
+        raise refuse(f"file not found; expected {what}") from None
+    except OSError as exc:
+        raise refuse(f"cannot be read ({exc.strerror or exc.__class__.__name__}); expected {what}") from None
+    with os.fdopen(fd, "rb", closefd=True) as fh:
+        try:
+            st = os.fstat(fh.fileno())
+            kind = _not_regular(st.st_mode)  # replaced between the two looks: check what was opened
+            if kind is not None:
+                raise refuse(f"is {kind}, not a regular file; expected {what}")
+            if st.st_size > limit_bytes:
+                raise refuse(f"is {_size_text(st.st_size)}, larger than the {_size_text(limit_bytes)} limit for "
+                             f"{what}")
+            data = fh.read(limit_bytes + 1)
+        except OSError as exc:
+            raise refuse(f"cannot be read ({exc.strerror or exc.__class__.__name__}); expected {what}") from None
+    if len(data) > limit_bytes:  # grew while being read
+        raise refuse(f"is larger than the {_size_text(limit_bytes)} limit for {what}")
+    return data
+
+
 def read_toml(path, *, what: str, expected_tables: str) -> dict:
     """Parse a TOML file; every problem becomes one :class:`InputError` naming the file.
+
+    Only a regular file of at most :data:`TOML_MAX_BYTES` is read (see :func:`read_input_bytes`).
 
     Parameters
     ----------
@@ -233,15 +355,16 @@ def read_toml(path, *, what: str, expected_tables: str) -> dict:
     import tomllib  # noqa: PLC0415
 
     fname = str(path)
+    raw = read_input_bytes(path, limit_bytes=TOML_MAX_BYTES, what=what)
     try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError(f"file not found; expected {what}", file=fname) from None
+        data = tomllib.loads(raw.decode("utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"is not valid TOML: {exc}", file=fname) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot be read ({exc.__class__.__name__})", file=fname) from None
+    except UnicodeDecodeError as exc:
+        raise InputError(f"cannot be read ({exc.__class__.__name__}); expected UTF-8 text", file=fname) from None
+    except ValueError as exc:  # Python's limit on integer digits (4300), raised outside TOMLDecodeError
+        detail = "a number has too many digits" if "digits" in str(exc) else exc.__class__.__name__
+        raise InputError(f"is not valid TOML ({detail})", file=fname) from None
     if not data:
         raise InputError(f"file is empty; expected {expected_tables}", file=fname)
     return data
