@@ -1,4 +1,4 @@
-"""Command line: ``tradeopt budget | optimize | demand | contacts | catalog check``.
+"""Command line: ``tradeopt budget | optimize | demand | contacts | new | catalog check``.
 
 Thin: parse, call, print. Heavy imports happen inside the commands so that
 ``tradeopt --help`` stays fast. Bad input prints one line on stderr and exits
@@ -55,6 +55,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
     p.add_argument("--days", type=float, default=None, help="span to propagate [days] (default: the scenario's)")
     p.add_argument("--json", action="store_true", help="print JSON")
+
+    p = sub.add_parser("new", help="write the commented default scenario to a file as a starting point")
+    p.add_argument("path", metavar="SCENARIO.toml", help="file to create (never overwritten)")
 
     p = sub.add_parser("catalog", help="catalog tools")
     csub = p.add_subparsers(dest="catalog_command", metavar="ACTION", parser_class=_Parser)
@@ -119,8 +122,14 @@ def _cmd_contacts(args) -> int:
     return run_contacts(scenario_path=args.scenario, days=args.days, as_json=args.json)
 
 
+def _cmd_new(args) -> int:
+    from .commands import run_new
+
+    return run_new(path=args.path)
+
+
 _COMMANDS = {"budget": _cmd_budget, "catalog": _cmd_catalog, "optimize": _cmd_optimize,
-             "demand": _cmd_demand, "contacts": _cmd_contacts}
+             "demand": _cmd_demand, "contacts": _cmd_contacts, "new": _cmd_new}
 
 
 def main(argv: list[str] | None = None) -> int:

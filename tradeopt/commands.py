@@ -7,7 +7,7 @@ from pathlib import Path
 
 from .outputs.records import contacts_record, demand_record  # noqa: F401  (light; re-exported here)
 
-__all__ = ["run_optimize", "run_contacts", "run_demand", "contacts_record", "demand_record"]
+__all__ = ["run_optimize", "run_contacts", "run_demand", "run_new", "contacts_record", "demand_record"]
 
 
 def _default_out(name: str) -> Path:
@@ -110,4 +110,85 @@ def run_demand(*, scenario_path=None, as_json=False) -> int:
                      f"(6.02 N + 1.76){extra}")
     lines.extend(f"  WARNING: {w}" for w in dplan.warnings)
     print("\n".join(lines))
+    return 0
+
+
+#: The sample file the embedded scenario names for its imager's compression ratio.
+_SAMPLE_NAME = "imager_sample.bin"
+_NEW_HEADER = ("# Written by 'tradeopt new' as a starting point: edit the values, then run\n"
+               "# 'tradeopt optimize {file}'. The sample file {sample} beside it feeds the imager's\n"
+               "# compression ratio.\n")
+
+
+def new_scenario_text(name: str = "cinder-lark", *, file: str = "SCENARIO.toml") -> str:
+    """The embedded default scenario, commented, as a starting point named ``name``.
+
+    Parameters
+    ----------
+    name : str
+        Scenario name [-] written into ``[scenario] name`` (it names the results folder).
+    file : str
+        File name [-] quoted in the header comment.
+
+    Returns
+    -------
+    text : str
+        TOML text; it loads to the default scenario except for its name.
+    """
+    from importlib import resources
+
+    text = resources.files("tradeopt.data").joinpath("default_scenario.toml").read_text(encoding="utf-8")
+    old = 'name = "cinder-lark"'
+    if text.count(old) != 1:  # pragma: no cover  (guards an edit of the embedded file)
+        raise RuntimeError("the embedded default scenario has no single [scenario] name line")
+    text = text.replace(old, f"name = {json.dumps(name)}")
+    return _NEW_HEADER.format(file=file, sample=_SAMPLE_NAME) + text
+
+
+def run_new(*, path) -> int:
+    """``tradeopt new``: write the commented default scenario (and its sample file) as a starting point.
+
+    Refuses, with nothing written, when the file exists or a different file of the sample's name
+    is already beside it.
+    """
+    import shlex
+    from importlib import resources
+
+    from .inputs.errors import InputError
+
+    target = Path(path)
+    if target.suffix.lower() != ".toml":
+        raise InputError("expected a file name ending in .toml", file=str(target))
+    if target.exists() or target.is_symlink():
+        raise InputError("already exists; refusing to overwrite it (choose another name or remove it)",
+                         file=str(target))
+    if not target.parent.is_dir():
+        raise InputError("the folder does not exist; create it first", file=str(target))
+    sample = resources.files("tradeopt.data").joinpath(_SAMPLE_NAME).read_bytes()
+    sample_path = target.parent / _SAMPLE_NAME
+    write_sample = True
+    if sample_path.exists() or sample_path.is_symlink():
+        if not sample_path.is_file() or sample_path.read_bytes() != sample:
+            raise InputError(f"a different {_SAMPLE_NAME} is already in that folder; refusing to overwrite it "
+                             "(choose another folder)", file=str(sample_path))
+        write_sample = False
+    stem = re.sub(r"[^A-Za-z0-9_.-]+", "-", target.stem).strip("-") or "scenario"
+    text = new_scenario_text(stem, file=target.name)
+    try:
+        with open(target, "x", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+    except FileExistsError:
+        raise InputError("already exists; refusing to overwrite it", file=str(target)) from None
+    except OSError as exc:
+        raise InputError(f"cannot be written ({exc.strerror or exc})", file=str(target)) from None
+    if write_sample:
+        try:
+            with open(sample_path, "xb") as fh:
+                fh.write(sample)
+        except OSError as exc:
+            target.unlink()
+            raise InputError(f"cannot be written ({exc.strerror or exc}); nothing was written",
+                             file=str(sample_path)) from None
+    extra = f" and {sample_path}" if write_sample else ""
+    print(f"wrote {target}{extra}; edit it, then run: tradeopt optimize {shlex.quote(str(target))}")
     return 0
