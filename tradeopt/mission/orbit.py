@@ -1135,7 +1135,7 @@ def ground_track_cycle_days(satrec, *, tolerance=GAP_PHASE_TOLERANCE, max_days=G
     Returns
     -------
     cycle_days : float
-        Window length [day] (whole nodal days), at most ``max_days``.
+        Window length [day]: whole nodal days, rounded up to whole days, at most ``max_days``.
 
     References
     ----------
@@ -1156,7 +1156,7 @@ def ground_track_cycle_days(satrec, *, tolerance=GAP_PHASE_TOLERANCE, max_days=G
     worst = np.minimum.accumulate(d, axis=1).max(axis=0)  # worst miss once days 0..K are in the window
     ok = np.flatnonzero(worst <= float(tolerance))
     k = int(ok[0]) if ok.size else k_max
-    return float(min((k + 1) * nodal_day_days, float(max_days)))
+    return float(min(math.ceil((k + 1) * nodal_day_days - 1e-6), float(max_days)))
 
 
 def gap_window_days(satrec, days):
@@ -1183,7 +1183,8 @@ def gap_window_days(satrec, days):
     return float(max(float(days), min(max(GAP_WINDOW_MIN_DAYS, cycle), GAP_WINDOW_MAX_DAYS))), cycle
 
 
-def network_worst_gap_s(satrec, start_utc, days, sites, min_elevation_deg, *, step_s=GAP_WINDOW_STEP_S):
+def network_worst_gap_s(satrec, start_utc, days, sites, min_elevation_deg, *, step_s=GAP_WINDOW_STEP_S,
+                        chunk_s=10 * _DAY_S):
     """Longest gap [s] with no site in contact (each site above its own mask) over the window.
 
     Parameters
@@ -1200,6 +1201,9 @@ def network_worst_gap_s(satrec, start_utc, days, sites, min_elevation_deg, *, st
         Mask of each site [deg].
     step_s : float, optional
         Sampling step [s] of :func:`find_passes`.
+    chunk_s : float, optional
+        Time evaluated at once [s] (10 days by default: long windows run about 2.5 times faster than
+        with one-day chunks, for about 200 * n_sites * chunk_s / step_s bytes).
 
     Returns
     -------
@@ -1217,7 +1221,8 @@ def network_worst_gap_s(satrec, start_utc, days, sites, min_elevation_deg, *, st
     frames = []
     for mask in np.unique(masks):
         idx = np.flatnonzero(masks == mask)
-        p = find_passes(satrec, start_utc, days, {k: v[idx] for k, v in table.items()}, float(mask), step_s=step_s)
+        p = find_passes(satrec, start_utc, days, {k: v[idx] for k, v in table.items()}, float(mask), step_s=step_s,
+                        chunk_s=max(float(chunk_s), float(step_s)))
         p["site_index"] = idx[p["site_index"].to_numpy(int)]
         frames.append(p)
     passes = pd.concat(frames, ignore_index=True)
