@@ -185,6 +185,7 @@ class Scenario:
     coding: dict = field(default_factory=dict)
     network: dict = field(default_factory=dict)
     site_geometry: dict = field(default_factory=dict)  # site id -> (elevation_deg, range_m) from propagation
+    notes: list = field(default_factory=list)  # "NOTE: ..." lines: settings the requirement or orbit makes unused
     base_dir: Path | None = None
     file: str = DEFAULT_SCENARIO_NAME
 
@@ -292,6 +293,10 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                          "contacts, which needs a daily volume: give daily_volume_bits or volume_from_demand = true "
                          "instead of rate_bps, or remove storage_bits", file=file,
                          where="key [requirement] storage_bits")
+    if arq["scheme"] == "stop-and-wait" and arq["window_frames"] is not None and arq["window_frames"] != 1:
+        raise InputError(f"window_frames = {arq['window_frames']:g} does not apply to stop-and-wait, whose window is "
+                         "one frame; remove window_frames, or use scheme = \"go-back-n\" or \"selective-repeat\"",
+                         file=file, where="key [arq] window_frames")
     payloads = _payloads(data, file, base_dir)
     if req["volume_from_demand"] and not payloads:
         raise InputError("volume_from_demand = true needs at least one [[payloads]] table", file=file,
@@ -325,6 +330,8 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     if not any(s.required for s in sites):
         raise InputError("no site has required = true; at least one site must close the link", file=file,
                          where="table [[sites]]")
+    notes = _unused_settings(data, req, arq, sites, propagated=propagated,
+                             orbit_form="range_m" if orbit["range_m"] is not None else "altitude_m without inclination_deg")
 
     if catalog is None:
         cat_dir = sc["catalogs"]
@@ -386,7 +393,35 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         options={k: opts[k] for k in ("ground_antennas", "spacecraft_antennas", "amplifiers", "modcods")},
         dish_curve_max_diameter_m=opts["dish_curve_max_diameter_m"], dish_curve_step_m=opts["dish_curve_step_m"],
         orbit=orbit, requirement=req, contacts=contacts, payloads=payloads, framing=framing, arq=arq,
-        coding=coding, network=network, base_dir=base_dir, file=file)
+        coding=coding, network=network, base_dir=base_dir, file=file, notes=notes)
+
+
+def _unused_settings(data: dict, req: dict, arq: dict, sites: list, *, propagated: bool, orbit_form: str) -> list[str]:
+    """One note per group of settings that the requirement or the orbit makes unused (never ignored silently)."""
+    notes = []
+    given = next((k for k in ("rate_bps", "daily_volume_bits") if req[k] is not None), None)
+    if given is not None:
+        tables = [("[[payloads]]" if t == "payloads" else f"[{t}]") for t in ("payloads", "framing", "arq", "coding")
+                  if t in data]
+        if tables:
+            notes.append(f"NOTE: {', '.join(tables)} not used by optimize: [requirement] {given} is given, so the "
+                         "demand steps only feed 'tradeopt demand'")
+    written_arq = data.get("arq", {}) if isinstance(data.get("arq"), dict) else {}
+    if arq["scheme"] == "none":
+        keys = [k for k in ("frame_error_rate", "window_frames") if k in written_arq]
+        if keys:
+            notes.append(f"NOTE: [arq] {' and '.join(keys)} not used: the ARQ scheme is \"none\"")
+    if not propagated and "contacts" in data:
+        notes.append(f"NOTE: [contacts] not used: the orbit ({orbit_form}) is not propagated, so there are no "
+                     "passes")
+    if req["rate_bps"] is not None:
+        costed = [s.id for s in sites if s.cost_per_year is not None]
+        unused = ([f"cost_per_year of {', '.join(costed)}"] if costed else []) + (["[network]"] if "network" in data
+                                                                                  else [])
+        if unused:
+            notes.append(f"NOTE: {' and '.join(unused)} not used by optimize: the ground-network choice needs a daily "
+                         "volume, and [requirement] rate_bps is given")
+    return notes
 
 
 #: An ISO 8601 UTC date or time: ``2027-01-01``, ``2027-01-01T00:00``, ``2027-01-01T00:00:00[.fff][Z]``.
