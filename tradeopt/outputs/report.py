@@ -173,6 +173,8 @@ def mission_record(res) -> dict:
         out["volume"] = {k: v for k, v in res.volume.items() if k != "bin_edges_deg"}
     if m.network is not None:
         out["network"] = m.network
+    if m.plan is not None:
+        out["visibility"] = "continuous" if m.plan.kind == "geostationary" else "passes"
     return out
 
 
@@ -236,14 +238,22 @@ def summary_text(res, results_dir: str) -> str:
                              f"(within {100 * KNEE_FRACTION:g} % of the best {res.objective} on the curve, which "
                              f"ends at {end:g} m)")
     m = s["mission"]
+    continuous = m.get("visibility") == "continuous"
     if m.get("rate_source") in ("demand", "daily_volume_bits"):
+        contact = ("continuous contact (the required sites see the spacecraft all the time)" if continuous else
+                   f"{m['contact_s_per_day'] / 60:.1f} min/day of contact")
         lines.append(f"  rate from the daily volume: {m['daily_volume_bits'] / 1e9:.4g} Gbit/day over "
-                     f"{m['contact_s_per_day'] / 60:.1f} min/day of contact -> {m['rate_bps'] / 1e6:.4g} Mbit/s")
+                     f"{contact} -> {m['rate_bps'] / 1e6:.4g} Mbit/s")
     if "storage" in m:
         st = m["storage"]
         verdict = "fits" if st["fits"] else "DOES NOT FIT"
-        lines.append(f"  onboard storage {verdict}: {st['needed_bits'] / 1e9:.4g} Gbit generated during the worst gap "
-                     f"of {st['worst_gap_s'] / 3600:.2f} h, {st['storage_bits'] / 1e9:.4g} Gbit available")
+        if st.get("continuous"):
+            lines.append(f"  onboard storage {verdict}: no gap between contacts (the required sites see the spacecraft "
+                         f"continuously), {st['storage_bits'] / 1e9:.4g} Gbit available")
+        else:
+            lines.append(f"  onboard storage {verdict}: {st['needed_bits'] / 1e9:.4g} Gbit generated during the worst gap "
+                         f"of {st['worst_gap_s'] / 3600:.2f} h in a {st['gap_window_days']:g}-day window "
+                         f"({st['gap_window_basis']}), {st['storage_bits'] / 1e9:.4g} Gbit available")
     if "volume" in m:
         v = m["volume"]
         lines.append(f"  best design delivers {v['fixed_rate_bits_per_day'] / 1e9:.4g} Gbit/day at a fixed rate; "
@@ -257,7 +267,7 @@ def summary_text(res, results_dir: str) -> str:
                          f"({n['cost_per_year']:,.0f} per year, {n['delivered_bits_per_day'] / 1e9:.4g} Gbit/day)")
         else:
             lines.append(f"  ground network: {n['status']}: {n['message']}")
-    lines.extend(f"  {n}" for n in sorted(set(res.notes)) if n.startswith("WARNING"))
+    lines.extend(f"  {n}" for n in sorted(set(res.notes)) if n.startswith(("WARNING", "NOTE")))
     lines.append(f"  results: {results_dir}")
     return "\n".join(lines)
 

@@ -71,6 +71,7 @@ class ContactPlan:
     histogram_s_per_day: np.ndarray  # (n_sites, n_bins)
     tle: tuple | None = None
     geometry: dict = field(default_factory=dict)  # site id -> (elevation_deg, range_m) for the budget
+    notes: list = field(default_factory=list)  # "WARNING: ..." lines (a TLE propagated far from its epoch)
 
 
 def _site_table(sites):
@@ -116,7 +117,7 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
                 if 0 <= k < hist.shape[1]:
                     hist[i, k] = SECONDS_PER_DAY
         passes = pd.DataFrame(rows, columns=["site_index", "start_utc", "end_utc", "max_elevation_deg", "duration_s"])
-        tle = None
+        tle, notes = None, []
     else:
         sat = satrec_for(scenario)
         step = scenario.contacts["step_s"]
@@ -130,6 +131,8 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
         passes = pd.concat(frames, ignore_index=True).sort_values(["site_index", "start_utc"]).reset_index(drop=True)
         hist = np.asarray(orb.elevation_histogram(sat, start, days, table, np.asarray(edges), step_s=step))
         tle = tuple(orb.export_tle(sat))
+        age = orb.tle_age_warning(sat, start, days) if kind == "tle" else None
+        notes = [f"WARNING: {age}"] if age else []
         geometry = {}
         for i, s in enumerate(sites):
             p = passes[(passes["site_index"] == i) & (passes["start_utc"] > start) & (passes["end_utc"] < end)]
@@ -141,7 +144,8 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
     stats = orb.contact_statistics(passes, start, days, len(sites))
     network = orb.network_contact_statistics(passes, start, days)
     return ContactPlan(start_utc=start, days=days, kind=kind, sites=list(sites), passes=passes, stats=stats,
-                       network=network, bin_edges_deg=edges, histogram_s_per_day=hist, tle=tle, geometry=geometry)
+                       network=network, bin_edges_deg=edges, histogram_s_per_day=hist, tle=tle, geometry=geometry,
+                       notes=notes)
 
 
 def apply_contact_geometry(scenario, plan: ContactPlan) -> None:
@@ -359,15 +363,59 @@ def prepare(scenario) -> MissionContext:
 
     Sets ``scenario.rate_bps`` (for a volume requirement) and ``scenario.site_geometry``.
     """
-    ctx = MissionContext()
+    ctx = MissionContext(notes=list(getattr(scenario, "notes", [])))
     req = scenario.requirement
     needs_volume = req.get("rate_bps") is None and (req.get("daily_volume_bits") is not None
                                                      or req.get("volume_from_demand"))
+def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
+    """Worst gap [s] of the required sites (union) for the storage check, the window it came from, and a
+    TLE-age warning for that window (None when not needed).
+
+    A geostationary slot is seen continuously (no gap). For an orbit the window is
+    :func:`tradeopt.mission.orbit.gap_window_days`: the contact window, at least 30 days and one
+    ground-track cycle up to a year; beyond the contact window only the gap is computed, on a step
+    of at least :data:`tradeopt.mission.orbit.GAP_WINDOW_STEP_S` (the histograms, volumes and network
+    choice keep the contact window).
+    """
+    req_idx = [i for i, s in enumerate(plan.sites) if s.required]
+    passes = plan.passes[plan.passes["site_index"].isin(req_idx)]
+    worst_gap = float(orb.network_contact_statistics(passes, plan.start_utc, plan.days).iloc[0]["max_gap_s"])
+    if plan.kind == "geostationary":
+        return worst_gap, {"gap_window_days": plan.days, "gap_window_step_s": None, "continuous": True,
+                           "gap_window_basis": "fixed geometry: the required sites see the geostationary slot "
+                                               "continuously, so there is no gap"}, None
+    sat = satrec_for(scenario)
+    days, cycle = orb.gap_window_days(sat, plan.days)
+    step = float(scenario.contacts["step_s"])
+    rule = f"at least {orb.GAP_WINDOW_MIN_DAYS:g} days and one {cycle:g}-day ground-track cycle"
+    if cycle >= orb.GAP_WINDOW_MAX_DAYS:
+        rule = (f"one year: the ground-track cycle is not covered within {orb.GAP_WINDOW_MAX_DAYS:g} days, so the "
+                "worst gap may be understated")
+    warning = None
+    if days > plan.days:
+        step = max(step, orb.GAP_WINDOW_STEP_S)
+        sub = {k: v[req_idx] for k, v in _site_table(plan.sites).items()}
+        masks = [plan.sites[i].min_elevation_deg for i in req_idx]
+        worst_gap = max(worst_gap, orb.network_worst_gap_s(sat, plan.start_utc, days, sub, masks, step_s=step))
+        if scenario.orbit_kind == "tle":
+            warning = orb.tle_age_warning(sat, plan.start_utc, days)
+        basis = f"{rule}; gap only, {step:g} s step"
+    else:
+        basis = f"the {plan.days:g}-day contact window, which covers {rule}"
+    return worst_gap, {"gap_window_days": days, "gap_window_step_s": step, "continuous": False,
+                       "gap_window_basis": basis}, warning
+
+
     if scenario.orbit_kind in ("elements", "tle", "geostationary"):
         ctx.plan = contact_plan(scenario)
         apply_contact_geometry(scenario, ctx.plan)
-        ctx.notes.append(f"slant range at each site's mask from the propagated orbit ({ctx.plan.days:g} days from "
-                         f"{str(ctx.plan.start_utc)[:19]} UTC), not from the spherical-Earth formula")
+        if ctx.plan.kind == "geostationary":
+            ctx.notes.append("elevation and slant range at each site from the geostationary slot (fixed geometry: "
+                             "each site that sees it does so continuously)")
+        else:
+            ctx.notes.append(f"slant range at each site's mask from the propagated orbit ({ctx.plan.days:g} days "
+                             f"from {str(ctx.plan.start_utc)[:19]} UTC), not from the spherical-Earth formula")
+        ctx.notes.extend(ctx.plan.notes)
     if not needs_volume:
         ctx.rate_source = "given"
         return ctx
@@ -386,14 +434,14 @@ def prepare(scenario) -> MissionContext:
                      f"{contact_s / 60:.1f} min/day of contact above the masks of the required sites (simultaneous "
                      "visibility counted once); a design that closes at the mask delivers it")
     if req.get("storage_bits") is not None:
-        req_idx = [i for i, s in enumerate(ctx.plan.sites) if s.required]
-        passes = ctx.plan.passes[ctx.plan.passes["site_index"].isin(req_idx)]
-        stats = orb.network_contact_statistics(passes, ctx.plan.start_utc, ctx.plan.days)
-        worst_gap = float(stats.iloc[0]["max_gap_s"])
+        worst_gap, window, age = _storage_gap(scenario, ctx.plan)
+        if age:  # the longer gap window propagates the TLE farther: one warning, for the farthest time
+            ctx.notes = [n for n in ctx.notes if n not in ctx.plan.notes] + [f"WARNING: {age}"]
         from ..mission.volume import storage_needed_bits  # noqa: PLC0415
 
         generation = ctx.daily_volume_bits / SECONDS_PER_DAY
         need = float(storage_needed_bits(generation, worst_gap))
         ctx.storage = {"worst_gap_s": worst_gap, "generation_rate_bps": generation, "needed_bits": need,
-                       "storage_bits": float(req["storage_bits"]), "fits": need <= float(req["storage_bits"])}
+                       "storage_bits": float(req["storage_bits"]), "fits": need <= float(req["storage_bits"]),
+                       **window}
     return ctx
