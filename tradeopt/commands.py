@@ -59,14 +59,26 @@ def run_contacts(*, scenario_path=None, days=None, as_json=False) -> int:
         lines += [f"  {label}: {plan.tle[0]}", f"{pad}{plan.tle[1]}"]
         if plan.kind == "elements":
             lines.append(f"{pad}(built from the scenario's orbital elements, not an observed element set)")
-    lines.append(f"  {'site':<18} {'mask':>6} {'passes/day':>11} {'contact/day':>12} {'mean gap':>10} {'worst gap':>10}")
-    for s in rec["sites"]:
-        lines.append(f"  {s['id']:<18} {s['min_elevation_deg']:>5g}° {s['contacts_per_day']:>11.2f} "
-                     f"{s['contact_s_per_day'] / 60:>9.1f} min {s['mean_gap_s'] / 3600:>8.2f} h "
-                     f"{s['max_gap_s'] / 3600:>8.2f} h")
-    n = rec["network"]
-    lines.append(f"  {'all sites (union)':<18} {'':>6} {n['contacts_per_day']:>11.2f} {n['contact_s_per_day'] / 60:>9.1f} min "
-                 f"{n['mean_gap_s'] / 3600:>8.2f} h {n['max_gap_s'] / 3600:>8.2f} h")
+    if plan.kind == "geostationary":  # fixed geometry: each site sees the slot all the time or never
+        lines.append(f"  {'site':<18} {'mask':>6}  visibility")
+        for s in rec["sites"]:
+            where = f"elevation {s['elevation_deg']:.2f}°, range {s['range_m'] / 1e3:,.0f} km"
+            seen = (f"continuous: the site sees the spacecraft all the time ({where})" if s["visibility"] == "continuous"
+                    else f"never: the slot is below the mask ({where})")
+            lines.append(f"  {s['id']:<18} {s['min_elevation_deg']:>5g}°  {seen}")
+        seen = "continuous" if rec["network"]["visibility"] == "continuous" else "never"
+        lines.append(f"  {'all sites (union)':<18} {'':>6}  {seen}")
+    else:
+        lines.append(f"  {'site':<18} {'mask':>6} {'passes/day':>11} {'contact/day':>12} {'mean gap':>10} "
+                     f"{'worst gap':>10}")
+        for s in rec["sites"]:
+            lines.append(f"  {s['id']:<18} {s['min_elevation_deg']:>5g}° {s['contacts_per_day']:>11.2f} "
+                         f"{s['contact_s_per_day'] / 60:>9.1f} min {s['mean_gap_s'] / 3600:>8.2f} h "
+                         f"{s['max_gap_s'] / 3600:>8.2f} h")
+        n = rec["network"]
+        lines.append(f"  {'all sites (union)':<18} {'':>6} {n['contacts_per_day']:>11.2f} "
+                     f"{n['contact_s_per_day'] / 60:>9.1f} min {n['mean_gap_s'] / 3600:>8.2f} h "
+                     f"{n['max_gap_s'] / 3600:>8.2f} h")
     lines.append("  time per day in each elevation bin [min]:")
     edges = plan.bin_edges_deg
     head = " ".join(f"{edges[k]:g}-{edges[k + 1]:g}".rjust(8) for k in range(len(edges) - 1))
@@ -86,6 +98,7 @@ def run_demand(*, scenario_path=None, as_json=False) -> int:
 
     scenario = load_scenario(scenario_path)
     dplan = demand_plan(scenario)
+    lines.extend(f"  {note}" for note in rec["notes"])
     rec = demand_record(scenario, dplan)
     if as_json:
         rec["versions"] = versions(with_recommendations=False)

@@ -31,7 +31,13 @@ def contacts_record(scenario, plan) -> dict:
             "passes": [{"start_utc": _iso(r.start_utc), "end_utc": _iso(r.end_utc),
                         "max_elevation_deg": float(r.max_elevation_deg), "duration_s": float(r.duration_s)}
                        for r in p.itertuples()],
+            "visibility": "passes" if not p.empty else "none",
         })
+        if plan.kind == "geostationary":  # fixed geometry: seen all the time or never, no passes per day
+            el, rng = plan.geometry[s.id]
+            sites[-1].update(elevation_deg=el, range_m=rng)
+            if not p.empty:
+                sites[-1].update(visibility="continuous", contacts_per_day=None)
     net = plan.network.iloc[0]
     orbit = {"kind": plan.kind}
     if plan.tle is not None:
@@ -40,11 +46,13 @@ def contacts_record(scenario, plan) -> dict:
                                if plan.kind == "elements" else "given in the scenario")
     if plan.kind == "geostationary":
         orbit["geostationary_longitude_deg"] = scenario.orbit["geostationary_longitude_deg"]
+    network = {"contacts_per_day": float(net["contacts_per_day"]), "contact_s_per_day": float(net["contact_s_per_day"]),
+               "mean_gap_s": float(net["mean_gap_s"]), "max_gap_s": float(net["max_gap_s"]),
+               "visibility": "passes" if len(plan.passes) else "none"}
+    if plan.kind == "geostationary" and len(plan.passes):
+        network.update(visibility="continuous", contacts_per_day=None)
     return {"scenario": scenario.name, "start_utc": _iso(plan.start_utc), "days": plan.days, "orbit": orbit,
-            "sites": sites,
-            "network": {"contacts_per_day": float(net["contacts_per_day"]),
-                        "contact_s_per_day": float(net["contact_s_per_day"]),
-                        "mean_gap_s": float(net["mean_gap_s"]), "max_gap_s": float(net["max_gap_s"])}}
+            "sites": sites, "network": network, "notes": list(getattr(plan, "notes", []))}
 
 
 def demand_record(scenario, dplan) -> dict:
