@@ -162,7 +162,20 @@ def _ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
 
 
 def _evidence(scenario, res: TradeResult) -> None:
-    """Attenuation vs availability per site and band; margin vs elevation per band's best design."""
+    """Attenuation vs availability per site and band; margin vs elevation per band's best design.
+
+    Both use the elevation the budget uses: the mask for an orbit, the real elevation of a
+    geostationary slot (one margin point per site: the slot does not move), and, for a fixed
+    range with no site elevation in the scenario, each site's mask (said in a note).
+    """
+    fixed = scenario.orbit_kind == "geostationary"
+    if fixed:
+        res.notes.append("geostationary slot: attenuation.csv and margin_vs_elevation.csv are at each site's real "
+                         "elevation and range to the slot (one margin point per site), not at its mask")
+    elif scenario.orbit_kind == "range":
+        res.notes.append(f"fixed range {scenario.range_m:g} m: the scenario gives no site elevation, so the budget "
+                         "and attenuation.csv use each site's min_elevation_deg, and margin_vs_elevation.csv keeps "
+                         "that range at every elevation from the mask up")
     for space in res.spaces:
         best = res.search.best_by_band.get(space.band_id)
         if best is not None:
@@ -173,21 +186,22 @@ def _evidence(scenario, res: TradeResult) -> None:
             continue
         row = space.ground.iloc[g]
         for site in scenario.sites:
+            el_site = float(scenario.site_geometry.get(site.id, (site.min_elevation_deg,))[0])
             p = 100.0 - AVAILABILITY_GRID_PERCENT
             t = propagation.slant_path_attenuation(
                 latitude_deg=site.latitude_deg, longitude_deg=site.longitude_deg, altitude_m=site.altitude_m,
-                frequency_hz=space.frequency_hz, elevation_deg=site.min_elevation_deg, percent_of_year=p,
+                frequency_hz=space.frequency_hz, elevation_deg=el_site, percent_of_year=p,
                 antenna_diameter_m=float(row["diameter_m"]), antenna_efficiency=float(row["efficiency"]),
                 polarization_tilt_deg=scenario.polarization_tilt_deg)
             for i, av in enumerate(AVAILABILITY_GRID_PERCENT):
                 res.attenuation.append({"site_id": site.id, "band_id": space.band_id,
                                         "ground_antenna_id": str(row["ground_antenna_id"]),
-                                        "elevation_deg": site.min_elevation_deg, "availability_percent": float(av),
+                                        "elevation_deg": el_site, "availability_percent": float(av),
                                         "gas_db": float(t["gas_db"][i]), "cloud_db": float(t["cloud_db"][i]),
                                         "rain_db": float(t["rain_db"][i]),
                                         "scintillation_db": float(t["scintillation_db"][i]),
                                         "total_db": float(t["total_db"][i])})
-        if best is None or (scenario.altitude_m is None and scenario.range_m is None):
+        if best is None:
             continue
         rest = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c[best["c"]] + space.const_db
         gain_minus_point, t_clear = _ground_terms(space, g)
@@ -195,11 +209,14 @@ def _evidence(scenario, res: TradeResult) -> None:
             # The first point is the optimizer's own geometry at the mask (propagated range when the
             # scenario has it), so the curve starts at the margin the search constrained.
             el_mask, rng_mask = site_geometry(scenario, [site])
-            above = ELEVATION_GRID_DEG[ELEVATION_GRID_DEG > el_mask[0] + 1e-9]
-            rng_above = (np.full(above.shape, float(scenario.range_m)) if scenario.range_m is not None
-                         else np.asarray(path.slant_range_m(scenario.altitude_m, above), dtype=float))
-            el = np.concatenate([el_mask, above])
-            rng = np.concatenate([rng_mask, rng_above])
+            if fixed:  # the slot's real elevation and range
+                el, rng = el_mask, rng_mask
+            else:
+                above = ELEVATION_GRID_DEG[ELEVATION_GRID_DEG > el_mask[0] + 1e-9]
+                rng_above = (np.full(above.shape, float(scenario.range_m)) if scenario.range_m is not None
+                             else np.asarray(path.slant_range_m(scenario.altitude_m, above), dtype=float))
+                el = np.concatenate([el_mask, above])
+                rng = np.concatenate([rng_mask, rng_above])
             st = site_terms_for_apertures(scenario, [site] * len(el), space.frequency_hz,
                                           diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
                                           feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
