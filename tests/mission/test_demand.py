@@ -263,3 +263,87 @@ def test_demand_chain_errors():
         demand_chain({"rate": 1.0})
     with pytest.raises(ModelRangeError, match="code_rate"):
         demand_chain(Payload(raw_rate_bps=1.0), code_rate=0.0)
+
+
+# --- scenario settings around the demand (input layer) ----------------------
+
+_VOLUME_SCENARIO = """\
+[scenario]
+name = "kite-volume"
+availability_percent = 99.0
+required_margin_db = 3.0
+bands = ["X-DOWN"]
+
+[orbit]
+geostationary_longitude_deg = 10.0
+
+[requirement]
+{requirement}
+
+[[payloads]]
+name = "spectrometer"
+raw_rate_bps = 2e6
+
+[arq]
+{arq}
+
+[[sites]]
+id = "larchmoor"
+latitude_deg = 45.0
+longitude_deg = 12.0
+altitude_m = 300.0
+min_elevation_deg = 10.0
+"""
+
+
+def _volume_scenario(requirement: str, arq: str):
+    import tomllib
+
+    from tradeopt.inputs.scenario import scenario_from_dict
+
+    text = _VOLUME_SCENARIO.format(requirement=requirement, arq=arq)
+    return scenario_from_dict(tomllib.loads(text), file="<test>"), text
+
+
+def test_arq_stop_and_wait_with_a_window_is_one_line_exit_2(tmp_path, capsys):
+    # Catches: a traceback (ValueError from arq_efficiency) instead of a one-line input error naming the key.
+    from tradeopt.cli import main
+
+    text = _VOLUME_SCENARIO.format(requirement="rate_bps = 1e6",
+                                   arq='scheme = "stop-and-wait"\nframe_error_rate = 0.01\nwindow_frames = 4')
+    path = tmp_path / "saw.toml"
+    path.write_text(text)
+    out_dir = tmp_path / "out"
+    for argv in (["demand", str(path)], ["optimize", str(path), "--out", str(out_dir)]):
+        rc = main(argv)
+        out, err = capsys.readouterr()
+        assert rc == 2
+        assert out == "" and "Traceback" not in err
+        assert len(err.splitlines()) == 1
+        assert "key [arq] window_frames" in err and str(path) in err
+    assert not out_dir.exists()
+
+
+def test_arq_stop_and_wait_with_a_window_of_one_frame_is_accepted():
+    # Catches: an over-eager check (a window of one frame is what stop-and-wait is; Stallings).
+    sc, _ = _volume_scenario("rate_bps = 1e6", 'scheme = "stop-and-wait"\nwindow_frames = 1')
+    assert sc.arq["window_frames"] == 1
+
+
+def test_settings_unused_under_a_daily_volume_give_a_note():
+    # Catches: [[payloads]] and [arq] silently ignored when [requirement] daily_volume_bits is given.
+    from tradeopt.trade.schedule import prepare
+
+    sc, _ = _volume_scenario("daily_volume_bits = 1e11", 'scheme = "go-back-n"\nframe_error_rate = 0.01')
+    notes = [n for n in sc.notes if "[[payloads]]" in n]
+    assert len(notes) == 1 and "[arq]" in notes[0] and "daily_volume_bits" in notes[0]
+    assert notes[0] in prepare(sc).notes  # reaches the trade's notes (summary and best.json)
+    # With the volume from the payloads, they are used: no such note.
+    used, _ = _volume_scenario("volume_from_demand = true", 'scheme = "go-back-n"\nframe_error_rate = 0.01')
+    assert not any("[[payloads]]" in n for n in used.notes)
+
+
+def test_arq_settings_under_scheme_none_give_a_note():
+    # Catches: frame_error_rate and window_frames silently ignored when no ARQ scheme is chosen.
+    sc, _ = _volume_scenario("volume_from_demand = true", "frame_error_rate = 0.01\nwindow_frames = 8")
+    assert any(n.startswith("NOTE: [arq] frame_error_rate and window_frames not used") for n in sc.notes)

@@ -505,3 +505,61 @@ def test_geostationary_sgp4_orbit_is_one_clipped_pass_without_gaps(ts):
     stats = orbit.contact_statistics(passes, START, 1.0, 2)
     assert stats["max_gap_s"].tolist() == [0.0, 0.0]
     assert stats["contact_s_per_day"].tolist() == [86_400.0, 86_400.0]
+
+
+# ----------------------------------------------------------------- TLE age and the worst-gap window
+
+
+def _tle_sso_560():
+    # Invented 560 km sun-synchronous orbit, read back through a TLE (epoch 2024-03-01T00:00:00 UTC).
+    sat = orbit.satrec_from_elements(epoch_utc=START, altitude_m=560e3, eccentricity=0.0, inclination_deg=97.64,
+                                     raan_deg=40.0, argument_of_perigee_deg=0.0)
+    return orbit.satrec_from_tle(*orbit.export_tle(sat))
+
+
+def test_tle_age_warning_beyond_the_threshold_on_either_end_of_the_window():
+    # Catches: no warning for a TLE propagated weeks from its epoch, or an offset measured from the
+    # window start only. Threshold: 14 days (common practice, not a standard; see the module constant).
+    sat = _tle_sso_560()
+    day = np.timedelta64(1, "D")
+    assert orbit.TLE_MAX_PROPAGATION_DAYS == 14.0
+    assert orbit.tle_age_warning(sat, START + 2 * day, 7.0) is None            # 9 days at most
+    late = orbit.tle_age_warning(sat, START + 10 * day, 7.0)                     # ends 17 days after the epoch
+    assert late is not None and "17.0 days" in late and "beyond 14 days" in late
+    assert "\n" not in late
+    early = orbit.tle_age_warning(sat, START - 20 * day, 1.0)                    # before the epoch counts too
+    assert early is not None and "20.0 days" in early
+    assert orbit.tle_epoch_offset_days(sat, START + 10 * day, 7.0) == pytest.approx(17.0, abs=1e-6)
+
+
+# Invented sites at the coordinates of the demo scenario's three sites (masks 10, 20 and 10 deg).
+_DEMO_SITES = {"latitude_deg": [48.62, 7.08, 65.9], "longitude_deg": [9.95, 79.88, 28.4],
+               "altitude_m": [520.0, 12.0, 180.0]}
+_DEMO_MASKS = [10.0, 20.0, 10.0]
+
+
+def test_gap_window_finds_the_worst_gap_of_a_year_where_30_days_do_not():
+    # Catches: the storage check's worst gap taken over a fixed short window. For this orbit the
+    # long gaps recur once per ground-track cycle (~77 days: 1 / frac(15.013 rev per nodal day)),
+    # so 7 and 30 days both miss them. Reference: the same union-of-passes statistic over 365 days.
+    start = np.datetime64("2027-03-01T00:00:00", "ns")
+    sat = orbit.satrec_from_elements(epoch_utc=start, altitude_m=560e3, eccentricity=0.0, inclination_deg=97.64,
+                                     raan_deg=40.0, argument_of_perigee_deg=0.0)
+    window, cycle = orbit.gap_window_days(sat, 7.0)
+    assert window == cycle and 70.0 <= cycle <= 80.0
+    # One sample grid (120 s from the same start) for all three, so they differ only by their length.
+    year = orbit.network_worst_gap_s(sat, start, 365.0, _DEMO_SITES, _DEMO_MASKS, step_s=120.0)
+    month = orbit.network_worst_gap_s(sat, start, 30.0, _DEMO_SITES, _DEMO_MASKS, step_s=120.0)
+    chosen = orbit.network_worst_gap_s(sat, start, window, _DEMO_SITES, _DEMO_MASKS, step_s=120.0)
+    assert month < 0.8 * year  # the case the window exists for (6.9 h against 9.75 h when measured)
+    assert chosen == pytest.approx(year, rel=1e-3)
+
+
+def test_gap_window_bounds():
+    # Catches: a window shorter than 30 days or than the user's own window, or beyond a year when automatic.
+    sat = _tle_sso_560()
+    assert orbit.gap_window_days(sat, 1.0)[0] >= orbit.GAP_WINDOW_MIN_DAYS
+    assert orbit.gap_window_days(sat, 500.0)[0] == 500.0
+    assert orbit.ground_track_cycle_days(sat, max_days=40.0) <= 40.0
+    with pytest.raises(ModelRangeError):
+        orbit.ground_track_cycle_days(sat, tolerance=0.0)
