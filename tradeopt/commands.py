@@ -86,6 +86,7 @@ def run_contacts(*, scenario_path=None, days=None, as_json=False) -> int:
     for i, s in enumerate(scenario.sites):
         row = " ".join(f"{v / 60:8.1f}" for v in plan.histogram_s_per_day[i])
         lines.append(f"  {s.id:<18} {row}")
+    lines.extend(f"  {note}" for note in rec["notes"])
     print("\n".join(lines))
     return 0
 
@@ -98,7 +99,6 @@ def run_demand(*, scenario_path=None, as_json=False) -> int:
 
     scenario = load_scenario(scenario_path)
     dplan = demand_plan(scenario)
-    lines.extend(f"  {note}" for note in rec["notes"])
     rec = demand_record(scenario, dplan)
     if as_json:
         rec["versions"] = versions(with_recommendations=False)

@@ -186,8 +186,8 @@ def _evidence(scenario, res: TradeResult) -> None:
             continue
         row = space.ground.iloc[g]
         for site in scenario.sites:
-            el_site = float(scenario.site_geometry.get(site.id, (site.min_elevation_deg,))[0])
             p = 100.0 - AVAILABILITY_GRID_PERCENT
+            el_site = float(scenario.site_geometry.get(site.id, (site.min_elevation_deg,))[0])
             t = propagation.slant_path_attenuation(
                 latitude_deg=site.latitude_deg, longitude_deg=site.longitude_deg, altitude_m=site.altitude_m,
                 frequency_hz=space.frequency_hz, elevation_deg=el_site, percent_of_year=p,

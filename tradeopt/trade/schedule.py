@@ -358,15 +358,6 @@ class MissionContext:
     notes: list = field(default_factory=list)
 
 
-def prepare(scenario) -> MissionContext:
-    """Before a trade: propagate contacts when an orbit is given, turn a daily volume into a rate, check storage.
-
-    Sets ``scenario.rate_bps`` (for a volume requirement) and ``scenario.site_geometry``.
-    """
-    ctx = MissionContext(notes=list(getattr(scenario, "notes", [])))
-    req = scenario.requirement
-    needs_volume = req.get("rate_bps") is None and (req.get("daily_volume_bits") is not None
-                                                     or req.get("volume_from_demand"))
 def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
     """Worst gap [s] of the required sites (union) for the storage check, the window it came from, and a
     TLE-age warning for that window (None when not needed).
@@ -406,6 +397,15 @@ def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
                        "gap_window_basis": basis}, warning
 
 
+def prepare(scenario) -> MissionContext:
+    """Before a trade: propagate contacts when an orbit is given, turn a daily volume into a rate, check storage.
+
+    Sets ``scenario.rate_bps`` (for a volume requirement) and ``scenario.site_geometry``.
+    """
+    ctx = MissionContext(notes=list(getattr(scenario, "notes", [])))
+    req = scenario.requirement
+    needs_volume = req.get("rate_bps") is None and (req.get("daily_volume_bits") is not None
+                                                     or req.get("volume_from_demand"))
     if scenario.orbit_kind in ("elements", "tle", "geostationary"):
         ctx.plan = contact_plan(scenario)
         apply_contact_geometry(scenario, ctx.plan)
