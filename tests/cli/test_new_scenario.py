@@ -10,7 +10,6 @@ from __future__ import annotations
 import re
 import tomllib
 from importlib import resources
-from pathlib import Path
 
 import pytest
 

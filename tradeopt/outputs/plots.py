@@ -1,118 +1,313 @@
 """PNG plots of a trade (matplotlib, Agg), rendered in memory.
 
-Plots draw data the trade already computed; they compute no physics.
+Plots draw data the trade already computed; they compute no physics. Each figure has its own
+builder returning a :class:`matplotlib.figure.Figure` (for tests and notebooks);
+:func:`trade_plots` renders all four to PNG bytes.
+
+Conventions: colours are the Okabe-Ito colour-blind-safe set and the dish-diameter scale is
+viridis (perceptually uniform, readable in grey); a band is never told by colour alone (each has
+its own marker and line style), and a legend lists only bands that have data. The same result
+gives byte-identical PNG files (no time stamps; the ``Software`` text is given by the caller).
 """
 from __future__ import annotations
 
 import io
 
-__all__ = ["trade_plots"]
+__all__ = ["trade_plots", "pareto_figure", "dish_curve_figure", "margin_figure", "attenuation_figure",
+           "BAND_STYLE"]
 
-_BAND_STYLE = {"S": ("#1b7837", "o"), "X": ("#2166ac", "s"), "Ka": ("#b2182b", "^")}
+#: Style per band letter: Okabe-Ito colour, marker and line style (colour is never the only cue).
+BAND_STYLE = {
+    "S": {"color": "#009E73", "marker": "o", "linestyle": "-"},
+    "X": {"color": "#0072B2", "marker": "s", "linestyle": "--"},
+    "Ka": {"color": "#D55E00", "marker": "^", "linestyle": "-."},
+}
+_OTHER_STYLE = {"color": "#555555", "marker": "D", "linestyle": ":"}
+#: Line styles that tell the sites apart on the margin and attenuation plots.
+_SITE_LINESTYLES = ["-", "--", ":", "-."]
+_SITE_MARKERS = ["o", "s", "^", "v", "D", "P"]
+_GREY = "#b0b0b0"
+_DIAMETER_CMAP = "viridis"
+#: Availabilities [%] labelled on the attenuation plot (the scenario's own is added).
+_AVAILABILITY_TICKS_PERCENT = (95.0, 99.0, 99.5, 99.9, 99.95, 99.99, 99.999)
+_RC = {"svg.hashsalt": "tradeopt", "font.size": 9, "figure.dpi": 110}
+
+
+def _style(res, band_id: str) -> dict:
+    letter = {s.band_id: s.band for s in res.spaces}.get(band_id)
+    return BAND_STYLE.get(letter, _OTHER_STYLE)
+
+
+def _plt():
+    import matplotlib  # noqa: PLC0415
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt  # noqa: PLC0415
+
+    return plt
 
 
 def _png(fig, software: str) -> bytes:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, metadata={"Software": software})
-    import matplotlib.pyplot as plt  # noqa: PLC0415
-
-    plt.close(fig)
+    _plt().close(fig)
     return buf.getvalue()
+
+
+def _feasible_points(res):
+    """Distinct (DC power [W], mass [kg]) of every feasible evaluated design, or None if not kept."""
+    import numpy as np  # noqa: PLC0415
+
+    if not res.search.designs:
+        return None
+    chunks = [np.column_stack([blk.dc_power_w[blk.reason == 0], blk.mass_kg[blk.reason == 0]])
+              for _, blk in res.search.designs]
+    pts = np.concatenate(chunks) if chunks else np.empty((0, 2))
+    return np.unique(pts, axis=0)
+
+
+def _diameter_norm(res):
+    """Colour scale of the ground dish diameter [m]: the catalog's range over the scenario's bands."""
+    from matplotlib.colors import Normalize  # noqa: PLC0415
+
+    d = [float(x) for s in res.spaces for x in s.ground["diameter_m"]]
+    d += [float(r["ground_diameter_m"]) for r in res.search.pareto]
+    lo, hi = (min(d), max(d)) if d else (0.0, 1.0)
+    if hi - lo < 1e-9:
+        lo, hi = lo - 0.5, hi + 0.5
+    return Normalize(vmin=lo, vmax=hi)
+
+
+def pareto_figure(res):
+    """Pareto front: every feasible design in grey, the front coloured by ground dish, the best labelled.
+
+    Parameters
+    ----------
+    res : tradeopt.trade.optimize.TradeResult
+        A finished trade.
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+        Spacecraft DC power [W] on x, comm mass [kg] on y; a colour bar gives the ground dish
+        diameter [m] of each front point; markers tell the bands apart.
+    """
+    from matplotlib.cm import ScalarMappable  # noqa: PLC0415
+    from matplotlib.lines import Line2D  # noqa: PLC0415
+
+    from ..trade.optimize import design_ids  # noqa: PLC0415
+
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(7.6, 5.6), layout="constrained")
+    handles = []
+    cloud = _feasible_points(res)
+    if cloud is not None and len(cloud):
+        ax.scatter(cloud[:, 0], cloud[:, 1], s=16, c=_GREY, marker="o", linewidths=0, zorder=1)
+        handles.append(Line2D([], [], linestyle="none", marker="o", markersize=4, color=_GREY,
+                              label=f"feasible design ({res.search.designs_feasible:,})"))
+    elif res.search.designs_feasible:
+        ax.text(0.01, 0.01, "feasible designs not drawn (space too large to keep)", transform=ax.transAxes,
+                fontsize=7, color="0.35")
+    pts = res.search.pareto
+    norm = _diameter_norm(res)
+    if pts:
+        for band_id in sorted({r["band_id"] for r in pts}):
+            rows = [r for r in pts if r["band_id"] == band_id]
+            st = _style(res, band_id)
+            ax.scatter([r["dc_power_w"] for r in rows], [r["mass_kg"] for r in rows],
+                       c=[r["ground_diameter_m"] for r in rows], cmap=_DIAMETER_CMAP, norm=norm, marker=st["marker"],
+                       s=60, edgecolors="black", linewidths=0.8, zorder=3)
+            handles.append(Line2D([], [], linestyle="none", marker=st["marker"], markersize=7,
+                                  markerfacecolor="white", markeredgecolor="black", label=f"{band_id} Pareto front"))
+        fig.colorbar(ScalarMappable(norm=norm, cmap=_DIAMETER_CMAP), ax=ax, label="ground dish diameter [m]")
+    else:
+        ax.text(0.5, 0.5, "no feasible design", ha="center", va="center", transform=ax.transAxes)
+    best = res.search.best
+    if best is not None:
+        space = res.space(best["band_id"])
+        ids = design_ids(space, best["g"], best["a"], best["m"], best["c"])
+        ax.scatter([best["dc_power_w"]], [best["mass_kg"]], s=320, facecolors="none", edgecolors="black",
+                   linewidths=1.8, marker="o", zorder=4)
+        handles.append(Line2D([], [], linestyle="none", marker="o", markersize=12, markerfacecolor="none",
+                              markeredgecolor="black", markeredgewidth=1.8, label="best design"))
+        ax.set_title(f"best (least {'mass' if res.objective == 'mass' else 'DC power'}): {ids['band_id']}, "
+                     f"{ids['ground_antenna_id']} + {ids['spacecraft_antenna_id']} + {ids['amplifier_id']} + "
+                     f"{ids['modcod_id']}\n{best['mass_kg']:.2f} kg, {best['dc_power_w']:.1f} W, "
+                     f"{best['ground_diameter_m']:g} m dish, margin {best['margin_db']:.2f} dB", fontsize=8)
+        # A short label beside the ring, pointing away from the middle of the data so it stays inside.
+        xs = [best["dc_power_w"]] + [r["dc_power_w"] for r in pts]
+        ys = [best["mass_kg"]] + [r["mass_kg"] for r in pts]
+        if cloud is not None and len(cloud):
+            xs += list(cloud[:, 0])
+            ys += list(cloud[:, 1])
+        right = best["dc_power_w"] > 0.5 * (min(xs) + max(xs))
+        high = best["mass_kg"] > 0.5 * (min(ys) + max(ys))
+        ax.annotate(f"best: {ids['band_id']}, {best['ground_diameter_m']:g} m dish",
+                    xy=(best["dc_power_w"], best["mass_kg"]), xytext=(-14 if right else 14, -14 if high else 14), textcoords="offset points",
+                    ha="right" if right else "left", va="top" if high else "bottom", fontsize=8, fontweight="bold",
+                    zorder=6, bbox={"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": "none",
+                                    "alpha": 0.85})
+    if handles:
+        fig.legend(handles=handles, loc="outside lower center", ncol=min(4, len(handles)), fontsize=8,
+                   frameon=False)
+    ax.set_xlabel("spacecraft DC power [W]")
+    ax.set_ylabel("spacecraft comm mass [kg]")
+    fig.suptitle(f"{res.scenario.name}: Pareto front (mass, DC power, ground dish)")
+    ax.grid(alpha=0.3)
+    ax.margins(0.08)
+    return fig
+
+
+def dish_curve_figure(res):
+    """Dish-size curve: optimum spacecraft mass [kg] and its DC power [W] against ground dish diameter [m].
+
+    Parameters
+    ----------
+    res : tradeopt.trade.optimize.TradeResult
+        A finished trade.
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+        Two panels; a band whose curve is empty everywhere is named in a note, not in the legend.
+    """
+    import numpy as np  # noqa: PLC0415
+    from matplotlib.lines import Line2D  # noqa: PLC0415
+
+    plt = _plt()
+    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(10.0, 4.4), layout="constrained")
+    empty = []
+    knee_shown = False
+    for band_id, curve in res.curves.items():
+        d = np.asarray(curve["diameter_m"], dtype=float)
+        if not np.isfinite(np.asarray(curve["best_mass_kg"], dtype=float)).any():
+            empty.append(band_id)
+            continue
+        st = _style(res, band_id)
+        every = max(1, d.size // 8)
+        for ax, key in ((ax1, "best_mass_kg"), (ax2, "best_dc_power_w")):
+            ax.plot(d, curve[key], drawstyle="steps-post", label=band_id, markevery=every, markersize=5, **st)
+        if curve["knee_diameter_m"] is not None:
+            k = curve["knee_diameter_m"]
+            i = int(np.argmin(np.abs(d - k)))
+            for ax, key in ((ax1, "best_mass_kg"), (ax2, "best_dc_power_w")):
+                ax.plot([k], [curve[key][i]], marker="D", markersize=8, color="white", markeredgecolor="black",
+                        markeredgewidth=1.4, linestyle="none", zorder=5)
+            knee_shown = True
+    for ax, label in ((ax1, "optimum comm mass [kg]"), (ax2, "DC power of that design [W]")):
+        ax.set_xlabel("ground dish diameter [m]")
+        ax.set_ylabel(label)
+        ax.grid(alpha=0.3)
+        handles, _ = ax.get_legend_handles_labels()
+        if knee_shown:
+            handles.append(Line2D([], [], linestyle="none", marker="D", markersize=7, color="white",
+                                  markeredgecolor="black", label="a larger dish stops paying"))
+        if handles:
+            ax.legend(handles=handles, fontsize=8)
+    if not res.curves or len(empty) == len(res.curves):
+        ax1.text(0.5, 0.5, "no feasible design", ha="center", va="center", transform=ax1.transAxes)
+    note = f"\n(nothing closes at any diameter: {', '.join(empty)})" if empty else ""
+    fig.suptitle(f"{res.scenario.name}: dish-size curve, optimum design at each ground dish diameter{note}")
+    return fig
+
+
+def margin_figure(res):
+    """Margin [dB] against elevation [deg] of each band's best design at each required site.
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+        Bands by colour and marker, sites by line style; the required margin is a labelled line.
+    """
+    import numpy as np  # noqa: PLC0415
+
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(7.2, 4.8), layout="constrained")
+    rows = [r for r in res.elevation_margin if np.isfinite(r["margin_db"])]
+    sites = sorted({r["site_id"] for r in rows})
+    for band_id in sorted({r["band_id"] for r in rows}):
+        st = _style(res, band_id)
+        for site_id in sorted({r["site_id"] for r in rows if r["band_id"] == band_id}):
+            sel = [r for r in rows if r["band_id"] == band_id and r["site_id"] == site_id]
+            ax.plot([r["elevation_deg"] for r in sel], [r["margin_db"] for r in sel], color=st["color"],
+                    marker=st["marker"], markersize=4, linestyle=_SITE_LINESTYLES[sites.index(site_id) % 4],
+                    label=f"{band_id} at {site_id}")
+    req = res.scenario.required_margin_db
+    ax.axhline(req, color="black", linewidth=1.2, linestyle=(0, (6, 2, 1, 2)),
+               label=f"required margin {req:g} dB")
+    ax.set_xlabel("elevation [deg]")
+    ax.set_ylabel("margin [dB]")
+    ax.set_title(f"{res.scenario.name}: margin vs elevation, best design of each band "
+                 f"(availability {res.scenario.availability_percent:g} %)")
+    ax.grid(alpha=0.3)
+    if not rows:
+        ax.text(0.5, 0.5, "no feasible design", ha="center", va="center", transform=ax.transAxes)
+    ax.legend(fontsize=7)
+    return fig
+
+
+def attenuation_figure(res):
+    """Total atmospheric attenuation [dB] against availability [%] per band and site.
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+        x is p = 100 - availability [%] on a log scale, labelled in availability; the scenario's
+        availability is a labelled vertical line.
+    """
+    import numpy as np  # noqa: PLC0415
+    from matplotlib.ticker import FixedFormatter, FixedLocator, NullFormatter  # noqa: PLC0415
+
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(7.2, 4.8), layout="constrained")
+    rows = [r for r in res.attenuation if np.isfinite(r["total_db"])]
+    sites = sorted({r["site_id"] for r in rows})
+    for band_id in sorted({r["band_id"] for r in rows}):
+        st = _style(res, band_id)
+        for site_id in sorted({r["site_id"] for r in rows if r["band_id"] == band_id}):
+            sel = [r for r in rows if r["band_id"] == band_id and r["site_id"] == site_id]
+            ax.plot([100.0 - r["availability_percent"] for r in sel], [r["total_db"] for r in sel],
+                    color=st["color"], marker=st["marker"], markersize=4,
+                    linestyle=_SITE_LINESTYLES[sites.index(site_id) % 4], label=f"{band_id} at {site_id}")
+    chosen = res.scenario.availability_percent
+    ax.axvline(100.0 - chosen, color="black", linewidth=1.2, linestyle=(0, (6, 2, 1, 2)),
+               label=f"chosen availability {chosen:g} %")
+    ax.set_xscale("log")
+    avail = [r["availability_percent"] for r in rows] + [chosen]
+    lo, hi = min(avail), max(avail)
+    ticks = sorted({a for a in _AVAILABILITY_TICKS_PERCENT if lo - 1e-9 <= a <= hi + 1e-9} | {chosen})
+    ax.xaxis.set_major_locator(FixedLocator([100.0 - a for a in ticks]))
+    ax.xaxis.set_major_formatter(FixedFormatter([f"{a:g}" for a in ticks]))
+    ax.xaxis.set_minor_formatter(NullFormatter())
+    ax.set_xlim((100.0 - lo) * 1.25, (100.0 - hi) / 1.25)  # more availability to the right
+    ax.set_xlabel("availability: percentage of an average year the link closes [%] (log scale of 100 - availability)")
+    ax.set_ylabel("total atmospheric attenuation (ITU-R P.618) [dB]")
+    ax.set_title(f"{res.scenario.name}: attenuation vs availability at each site's elevation")
+    ax.grid(alpha=0.3, which="both")
+    ax.legend(fontsize=7)
+    return fig
 
 
 def trade_plots(res, *, software: str) -> dict[str, bytes]:
     """Pareto front, dish-size curve, margin vs elevation and attenuation vs availability.
+
+    Parameters
+    ----------
+    res : tradeopt.trade.optimize.TradeResult
+        A finished trade.
+    software : str
+        Text of the PNG ``Software`` field [-] (versions; no time stamp, so output is reproducible).
 
     Returns
     -------
     files : dict
         PNG file name -> bytes.
     """
-    import matplotlib  # noqa: PLC0415
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt  # noqa: PLC0415
-    import numpy as np  # noqa: PLC0415
-
-    plt.rcParams.update({"svg.hashsalt": "tradeopt", "font.size": 9})
+    plt = _plt()
     out = {}
-    letter = {s.band_id: s.band for s in res.spaces}
-
-    # Pareto front: mass vs DC power, marker size by dish diameter.
-    fig, ax = plt.subplots(figsize=(6.4, 4.4))
-    pts = res.search.pareto
-    if pts:
-        for band_id in sorted({r["band_id"] for r in pts}):
-            rows = [r for r in pts if r["band_id"] == band_id]
-            colour, marker = _BAND_STYLE.get(letter[band_id], ("#555555", "o"))
-            ax.scatter([r["dc_power_w"] for r in rows], [r["mass_kg"] for r in rows],
-                       s=[12 + 6 * r["ground_diameter_m"] for r in rows], c=colour, marker=marker,
-                       label=band_id, alpha=0.8, edgecolors="black", linewidths=0.4)
-        ax.legend(title="band (size: ground dish)")
-    else:
-        ax.text(0.5, 0.5, "no feasible design", ha="center", va="center", transform=ax.transAxes)
-    ax.set_xlabel("spacecraft DC power [W]")
-    ax.set_ylabel("spacecraft comm mass [kg]")
-    ax.set_title(f"{res.scenario.name}: Pareto front (mass, DC power, ground dish)")
-    ax.grid(alpha=0.3)
-    out["pareto.png"] = _png(fig, software)
-
-    # Dish-size curve.
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(9.6, 4.0))
-    for band_id, curve in res.curves.items():
-        colour, marker = _BAND_STYLE.get(letter[band_id], ("#555555", "o"))
-        d = curve["diameter_m"]
-        ax1.plot(d, curve["best_mass_kg"], color=colour, label=band_id, drawstyle="steps-post")
-        ax2.plot(d, curve["best_dc_power_w"], color=colour, label=band_id, drawstyle="steps-post")
-        if curve["knee_diameter_m"] is not None:
-            k = curve["knee_diameter_m"]
-            i = int(np.argmin(np.abs(d - k)))
-            ax1.plot([k], [curve["best_mass_kg"][i]], marker="D", color=colour, markeredgecolor="black")
-            ax2.plot([k], [curve["best_dc_power_w"][i]], marker="D", color=colour, markeredgecolor="black")
-    for ax, label in ((ax1, "optimum comm mass [kg]"), (ax2, "DC power of that design [W]")):
-        ax.set_xlabel("ground dish diameter [m]")
-        ax.set_ylabel(label)
-        ax.grid(alpha=0.3)
-        if res.curves:
-            ax.legend()
-    fig.suptitle(f"{res.scenario.name}: dish-size curve (diamond: a larger dish stops paying)")
-    fig.tight_layout()
-    out["dish_curve.png"] = _png(fig, software)
-
-    # Margin vs elevation for each band's best design.
-    fig, ax = plt.subplots(figsize=(6.4, 4.4))
-    rows = res.elevation_margin
-    for band_id in sorted({r["band_id"] for r in rows}):
-        colour, _ = _BAND_STYLE.get(letter[band_id], ("#555555", "o"))
-        for k, site_id in enumerate(sorted({r["site_id"] for r in rows if r["band_id"] == band_id})):
-            sel = [r for r in rows if r["band_id"] == band_id and r["site_id"] == site_id]
-            ax.plot([r["elevation_deg"] for r in sel], [r["margin_db"] for r in sel], color=colour,
-                    linestyle=["-", "--", ":", "-."][k % 4], label=f"{band_id} at {site_id}")
-    ax.axhline(res.scenario.required_margin_db, color="black", linewidth=0.8)
-    ax.set_xlabel("elevation [deg]")
-    ax.set_ylabel("margin [dB]")
-    ax.set_title(f"margin vs elevation, best design of each band ({res.scenario.availability_percent:g} %)")
-    ax.grid(alpha=0.3)
-    if rows:
-        ax.legend(fontsize=7)
-    out["margin_vs_elevation.png"] = _png(fig, software)
-
-    # Attenuation vs availability per site and band.
-    fig, ax = plt.subplots(figsize=(6.4, 4.4))
-    rows = res.attenuation
-    for band_id in sorted({r["band_id"] for r in rows}):
-        colour, _ = _BAND_STYLE.get(letter[band_id], ("#555555", "o"))
-        for k, site_id in enumerate(sorted({r["site_id"] for r in rows})):
-            sel = [r for r in rows if r["band_id"] == band_id and r["site_id"] == site_id]
-            ax.plot([100.0 - r["availability_percent"] for r in sel], [r["total_db"] for r in sel], color=colour,
-                    linestyle=["-", "--", ":", "-."][k % 4], label=f"{band_id} at {site_id}")
-    ax.set_xscale("log")
-    ax.invert_xaxis()
-    ax.set_xlabel("percentage of an average year exceeded, p = 100 - availability [%]")
-    ax.set_ylabel("total atmospheric attenuation (P.618) [dB]")
-    ax.set_title("attenuation vs availability at each site's minimum elevation")
-    ax.grid(alpha=0.3, which="both")
-    if rows:
-        ax.legend(fontsize=7)
-    out["attenuation_vs_availability.png"] = _png(fig, software)
+    with plt.rc_context(_RC):
+        for name, build in (("pareto.png", pareto_figure), ("dish_curve.png", dish_curve_figure),
+                            ("margin_vs_elevation.png", margin_figure),
+                            ("attenuation_vs_availability.png", attenuation_figure)):
+            out[name] = _png(build(res), software)
     return out
