@@ -34,7 +34,7 @@ from tradeopt.cli import main
 from tradeopt.inputs.errors import InputError
 from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.outputs import writer
-from tradeopt.outputs.writer import TEMP_PREFIX, write_results
+from tradeopt.outputs.writer import MARKER_NAME, MARKER_TEXT, TEMP_PREFIX, write_results
 
 ROOT = Path(__file__).resolve().parents[1]
 BAD_DIR = ROOT / "tests" / "data" / "bad_scenarios"
@@ -218,6 +218,7 @@ def test_bad_scenario_is_one_line_exit_2_and_writes_nothing(path, command, tmp_p
         return
     # An existing results folder is left byte-identical, with nothing beside it.
     out_dir.mkdir(parents=True)
+    (out_dir / MARKER_NAME).write_text(MARKER_TEXT)  # an earlier run's folder carries the marker
     (out_dir / "best.json").write_text('{"from": "an earlier run"}\n')
     (out_dir / "plots").mkdir()
     (out_dir / "plots" / "keep.png").write_bytes(b"\x89PNG earlier")

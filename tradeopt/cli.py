@@ -72,6 +72,9 @@ def _cmd_budget(args) -> int:
     from .outputs.tables import budget_record, format_budget
     from .trade.linkcalc import compute_link
 
+    if args.out is not None:  # a folder tradeopt may not replace is refused before anything is read or computed
+        from .outputs.writer import check_out_dir
+        check_out_dir(args.out, inputs=[args.link_file])
     spec = load_link_file(args.link_file)
     from .inputs.linkfile import locate_model_error
     try:
@@ -82,10 +85,10 @@ def _cmd_budget(args) -> int:
     record["versions"] = versions(with_recommendations=spec.site is not None)
     record = clean_for_json(record)
     text = format_budget(result, title=f"tradeopt budget: {args.link_file}")
-    if args.out:
+    if args.out is not None:
         from .outputs.writer import write_results
         write_results(args.out, {"budget.json": json.dumps(record, indent=2, sort_keys=True) + "\n",
-                                 "budget.txt": text + "\n"})
+                                 "budget.txt": text + "\n"}, inputs=[args.link_file])
     print(json.dumps(record, indent=2, sort_keys=True) if args.json else text)
     return 0
 

@@ -15,23 +15,35 @@ def _default_out(name: str) -> Path:
     return Path("results") / safe
 
 
+def _scenario_inputs(scenario_path, scenario) -> list:
+    """The files and folders a scenario run reads: the results folder must not be or hold any of them."""
+    catalog = getattr(scenario, "catalog", None)
+    return [scenario_path, getattr(catalog, "directory", None),
+            *(p.get("compression_sample_file") for p in scenario.payloads)]
+
+
 def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=False) -> int:
-    """``tradeopt optimize``: search, write the results folder atomically, print the summary."""
+    """``tradeopt optimize``: search, write the results folder atomically, print the summary.
+
+    The results folder (``out_dir`` or ``results/<scenario name>``) must be new, empty or
+    written by tradeopt before, and must not hold an input: it is checked before the
+    trade is computed and again when written (:func:`tradeopt.outputs.writer.check_out_dir`).
+    """
     from .inputs.scenario import load_scenario
     from .outputs.report import build_files, summary_dict, summary_text
-    from .outputs.writer import write_results
+    from .outputs.writer import check_out_dir, write_results
     from .outputs.provenance import clean_for_json
     from .trade.optimize import optimize
 
-    from .inputs.errors import InputError
-
+    if out_dir is not None:  # refused before anything is read or computed
+        check_out_dir(out_dir, inputs=[scenario_path])
     scenario = load_scenario(scenario_path)
-    target = Path(out_dir) if out_dir else _default_out(scenario.name)
-    if target.exists() and not target.is_dir():
-        raise InputError("exists and is not a folder; give a folder path for the results", file=str(target))
+    target = Path(out_dir) if out_dir is not None else _default_out(scenario.name)
+    inputs = _scenario_inputs(scenario_path, scenario)
+    check_out_dir(target, inputs=inputs)  # the default folder too; and now the catalogs and samples are known
     res = optimize(scenario, objective=objective)
     files = build_files(res, str(target))
-    write_results(target, files)
+    write_results(target, files, inputs=inputs)
     if as_json:
         print(json.dumps(clean_for_json(summary_dict(res, str(target))), indent=2, sort_keys=True))
     else:

@@ -199,7 +199,7 @@ def test_out_dir_holds_the_same_json_and_table(explicit_file, tmp_path, capsys):
     assert rc == 0
     rc, table_out, _ = run(capsys, "budget", str(explicit_file), "--out", str(out_dir))
     assert rc == 0
-    assert sorted(p.name for p in out_dir.iterdir()) == ["budget.json", "budget.txt"]
+    assert sorted(p.name for p in out_dir.iterdir()) == [".tradeopt-results", "budget.json", "budget.txt"]
     assert (out_dir / "budget.json").read_text() == json_out
     assert (out_dir / "budget.txt").read_text() == table_out
     assert not [p for p in out_dir.parent.iterdir() if p.name.startswith(".tradeopt-partial-")]

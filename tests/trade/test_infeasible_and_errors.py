@@ -171,6 +171,9 @@ def test_bad_scenario_leaves_existing_out_folder_alone(tmp_path, capsys, name):
     path.write_text(BAD[name][0], encoding="utf-8")
     out = tmp_path / "results"
     (out / "sub").mkdir(parents=True)
+    from tradeopt.outputs.writer import MARKER_NAME, MARKER_TEXT  # a folder an earlier run wrote carries the marker
+
+    (out / MARKER_NAME).write_text(MARKER_TEXT, encoding="utf-8")
     (out / "best.json").write_text('{"keep": true}\n', encoding="utf-8")
     (out / "sub" / "designs.csv").write_bytes(b"# old\na,b\n1,2\n")
     before = {p.relative_to(out): p.read_bytes() for p in sorted(out.rglob("*")) if p.is_file()}
