@@ -158,3 +158,18 @@ def test_gt():
     assert noise.gt_dbk(40.0, 150.0) - noise.gt_dbk(40.0, 300.0) == pytest.approx(10 * math.log10(2), abs=1e-12)
     assert_kinds(noise.gt_dbk, (40.0, 150.0), 0, [30.0, 40.0, 50.0])
     assert_kinds(noise.gt_dbk, (40.0, 150.0), 1, [50.0, 150.0, 400.0])
+
+
+def test_feed_loss_at_290_k_costs_exactly_its_loss_in_gt():
+    # Bug caught: gain kept at the antenna terminal while T_sys is referred to the LNA input (the
+    # feed loss then never reduced G/T). Reference: Friis cascade (Maral and Bousquet, 5th ed.,
+    # section 5.5) - with the antenna at 290 K, a lossy feed at 290 K adds exactly what it absorbs, so
+    # T_sys at the LNA input does not change and G/T drops by exactly the feed loss.
+    t_no_feed = noise.system_noise_temperature_k(290.0, 0.0, 60.0)
+    t_feed = noise.system_noise_temperature_k(290.0, 3.0, 60.0)
+    assert t_feed == pytest.approx(t_no_feed, abs=1e-9) == pytest.approx(350.0, abs=1e-9)
+    gt_no_feed = noise.gt_dbk(45.0, t_no_feed)
+    gt_feed = noise.gt_dbk(45.0, t_feed, feed_loss_db=3.0)
+    assert gt_no_feed - gt_feed == pytest.approx(3.0, abs=1e-12)
+    # By hand: 45 - 3 - 10 log10(350) = 16.5593 dB/K.
+    assert gt_feed == pytest.approx(45.0 - 3.0 - 25.44068, abs=1e-5)

@@ -59,6 +59,7 @@ LINK_SCHEMA: dict[str, list[Field]] = {
         Field("antenna_diameter_m", unit="m", required=False, low=0.0, low_open=True, high=1000.0),
         Field("antenna_efficiency", required=False, low=0.0, high=1.0, low_open=True),
         Field("beamwidth_deg", unit="deg", required=False, low=1.0e-4, high=360.0),
+        Field("line_loss_db", unit="dB", required=False, low=0.0, high=100.0),
         Field("system_noise_temperature_k", unit="K", required=False, low=1.0, high=1.0e6),
         Field("gt_dbk", unit="dB/K", required=False, low=-100.0, high=100.0),
         Field("pointing_error_deg", unit="deg", required=False, low=0.0, high=90.0),
@@ -117,6 +118,7 @@ class LinkSpec:
     tx_line_loss_db: float = 0.0
     rx_clear_sky_noise_temperature_k: float | None = None
     rx_feed_loss_db: float = 0.0
+    rx_gt_dbk: float | None = None
     polarization_loss_db: float = 0.0
     other_losses_db: float = 0.0
     implementation_loss_db: float = 0.0
@@ -168,8 +170,8 @@ def _band_letter_of_frequency(cat: Catalog, frequency_hz: float) -> str | None:
     return None if hit.empty else str(hit.iloc[0]["band"])
 
 
-def _explicit_end(v: dict, *, file, table: str) -> End:
-    which = _one_of(v, ("antenna", "antenna_gain_dbi", "antenna_diameter_m"), file=file, table=table)
+def _explicit_end(v: dict, *, file, table: str, need: bool = True) -> End:
+    which = _one_of(v, ("antenna", "antenna_gain_dbi", "antenna_diameter_m"), file=file, table=table, need=need)
     end = End(pointing_error_deg=v.get("pointing_error_deg") or 0.0, beamwidth_deg=v.get("beamwidth_deg"))
     if which == "antenna_gain_dbi":
         end.gain_dbi = v["antenna_gain_dbi"]
@@ -305,6 +307,11 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
                                        "(feed at 290 K)")
                 else:
                     tx_power_w = float(r["max_tx_power_w"])
+                    if tx["line_loss_db"] is None:  # transmit at the same reference plane as receive
+                        tx["line_loss_db"] = float(r["feed_loss_db"])
+                        assumptions.append(f"transmit line loss: the catalog feed loss of {v['antenna']}, "
+                                           f"{tx['line_loss_db']:g} dB (give [transmitter] line_loss_db to "
+                                           "override)")
             else:
                 rows = _lookup(catalog.spacecraft_antennas, "spacecraft_antenna_id", v["antenna"], file=file,
                                where=where, what="spacecraft antenna")
@@ -327,7 +334,9 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
             if v.get("pointing_error_deg") is not None:
                 end.pointing_error_deg = v["pointing_error_deg"]
         else:
-            end = _explicit_end(v, file=file, table=table)
+            # A receiver may be given by its G/T alone (no antenna): gain and noise then stay unknown.
+            end = _explicit_end(v, file=file, table=table,
+                                need=not (name == "rx" and v.get("gt_dbk") is not None))
         ends[name] = end
 
     # Transmit power.
@@ -353,17 +362,31 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         raise InputError(f"{which} overrides the catalog antenna's noise; give one or the other", file=file,
                          where=f"key [receiver] {which}")
     rx_end = ends["rx"]
+    gt_only = None
+    if rx["line_loss_db"] is not None:
+        if which != "system_noise_temperature_k" or rx_end.item_id is not None:
+            raise InputError("line_loss_db (antenna terminal to LNA) goes with an antenna given by values and "
+                             "system_noise_temperature_k at the LNA input; a catalog antenna carries its own feed "
+                             "loss and a gt_dbk already includes it", file=file, where="key [receiver] line_loss_db")
+        feed_loss_db = rx["line_loss_db"]
     if which == "system_noise_temperature_k":
         clear_t = rx["system_noise_temperature_k"]
+        assumptions.append("system_noise_temperature_k is taken at the LNA input, the reference plane of G/T"
+                           + ("" if rx["line_loss_db"] is not None else "; no [receiver] line_loss_db given: 0 dB"))
+    elif which == "gt_dbk" and rx_end.gain_dbi is None and rx_end.diameter_m is None:
+        gt_only = rx["gt_dbk"]
+        if rx_end.pointing_error_deg > 0 and rx_end.beamwidth_deg is None:
+            raise InputError("pointing_error_deg of a receiver given by gt_dbk alone needs beamwidth_deg", file=file,
+                             where="key [receiver] pointing_error_deg")
+        assumptions.append("receiver given by its G/T alone: receive gain, received power and noise temperature "
+                           "are not available, and no sky-noise increase can be added")
     elif which == "gt_dbk":
-        if rx_end.gain_dbi is None and rx_end.diameter_m is None:
-            raise InputError("gt_dbk needs the receive antenna's gain or diameter to split G and T", file=file,
-                             where="key [receiver] gt_dbk")
         from ..physics.antenna import parabolic_gain_dbi  # noqa: PLC0415
         g = rx_end.gain_dbi if rx_end.gain_dbi is not None else float(
             parabolic_gain_dbi(rx_end.diameter_m, frequency_hz, rx_end.efficiency))
         clear_t = 10.0 ** ((g - rx["gt_dbk"]) / 10.0)
-        assumptions.append(f"clear-sky system noise temperature {clear_t:.1f} K from gt_dbk and the antenna gain")
+        assumptions.append(f"clear-sky system noise temperature {clear_t:.1f} K from gt_dbk and the antenna gain "
+                           "(both at the LNA input)")
 
     # Scintillation needs the ground aperture.
     if site is not None:
@@ -415,7 +438,7 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         range_m=link["range_m"], altitude_m=link["altitude_m"], site=site,
         polarization_tilt_deg=link["polarization_tilt_deg"],
         tx_line_loss_db=tx["line_loss_db"] or 0.0, rx_clear_sky_noise_temperature_k=clear_t,
-        rx_feed_loss_db=feed_loss_db,
+        rx_feed_loss_db=feed_loss_db, rx_gt_dbk=gt_only,
         polarization_loss_db=losses["polarization_db"] or 0.0, other_losses_db=losses["other_db"] or 0.0,
         implementation_loss_db=wave["implementation_loss_db"] or 0.0,
         required_margin_db=wave["required_margin_db"] or 0.0, modcod_id=wave["modcod"],

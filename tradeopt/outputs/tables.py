@@ -20,10 +20,12 @@ _LABELS = {
     "polarization_loss_db": "polarization loss",
     "other_losses_db": "other losses",
     "rx_gain_dbi": "receive antenna gain",
+    "rx_line_loss_db": "receive feed loss (to LNA)",
+    "received_power_dbw": "received power (LNA input)",
     "clear_sky_noise_temperature_k": "clear-sky system noise temp.",
     "sky_noise_increase_k": "sky-noise increase",
     "system_noise_temperature_k": "system noise temperature",
-    "gt_dbk": "G/T",
+    "gt_dbk": "G/T (at LNA input)",
     "boltzmann_dbw_per_k_hz": "Boltzmann constant",
     "cn0_dbhz": "C/N0",
     "rate_bps": "information rate",
@@ -72,7 +74,10 @@ def format_budget(result: dict, *, title: str = "") -> str:
         lines.append(f"  {label:<{width}} {value:>14}  {unit}")
     lines.append("  " + "-" * (width + 24))
     for key in BUDGET_TERMS:
-        value, unit = _fmt(key, result[key])
+        if result.get(key) is None:  # e.g. receive gain of a receiver given by its G/T alone
+            value, unit = "n/a", BUDGET_TERMS[key]
+        else:
+            value, unit = _fmt(key, result[key])
         lines.append(f"  {_LABELS[key]:<{width}} {value:>14}  {unit}")
         if key in ("eirp_dbw", "atmospheric_loss_db", "other_losses_db", "gt_dbk", "cn0_dbhz", "ebn0_db"):
             lines.append("")

@@ -4,6 +4,8 @@ Every term is additive in decibels, so the whole budget broadcasts over any
 number of design axes. The identities hold exactly, by construction:
 
 * C/N0 = EIRP - (L_fs + A_atm + L_point + L_pol + L_other) + G/T - 10 log10(k)
+* G/T = G_rx - L_feed - 10 log10(T_sys), gain and noise both referred to the
+  LNA input (the receive reference plane)
 * Eb/N0 = C/N0 - 10 log10(R_b)
 * margin = Eb/N0 - (Eb/N0)_req - L_impl
 * max rate: the R_b at which margin = required margin.
@@ -18,10 +20,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import noise
 from .propagation import total_attenuation_db
 from .units import BOLTZMANN_DBW_PER_K_HZ
 
-__all__ = ["BUDGET_TERMS", "link_budget", "max_rate_bps"]
+__all__ = ["BUDGET_TERMS", "RECEIVER_TERMS", "link_budget", "max_rate_bps"]
 
 #: Budget terms in reading order, with their units (the keys of :func:`link_budget`'s result).
 BUDGET_TERMS = {
@@ -39,6 +42,8 @@ BUDGET_TERMS = {
     "polarization_loss_db": "dB",
     "other_losses_db": "dB",
     "rx_gain_dbi": "dBi",
+    "rx_line_loss_db": "dB",
+    "received_power_dbw": "dBW",
     "clear_sky_noise_temperature_k": "K",
     "sky_noise_increase_k": "K",
     "system_noise_temperature_k": "K",
@@ -53,6 +58,11 @@ BUDGET_TERMS = {
     "required_margin_db": "dB",
     "max_rate_bps": "bit/s",
 }
+
+
+#: Terms that need the receive gain and noise temperature separately: not available (omitted from the
+#: result) when the receiver is given by its G/T alone.
+RECEIVER_TERMS = ("rx_gain_dbi", "received_power_dbw", "clear_sky_noise_temperature_k", "system_noise_temperature_k")
 
 
 def max_rate_bps(cn0_dbhz, ebn0_required_db, implementation_loss_db, required_margin_db):
@@ -86,13 +96,18 @@ def max_rate_bps(cn0_dbhz, ebn0_required_db, implementation_loss_db, required_ma
     return np.float64(out) if np.ndim(out) == 0 else out
 
 
-def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
-                clear_sky_noise_temperature_k, rate_bps, ebn0_required_db,
-                tx_line_loss_db=0.0, tx_pointing_loss_db=0.0, rx_pointing_loss_db=0.0,
+def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rate_bps, ebn0_required_db,
+                rx_gain_dbi=None, clear_sky_noise_temperature_k=None, gt_dbk=None,
+                tx_line_loss_db=0.0, rx_line_loss_db=0.0, tx_pointing_loss_db=0.0, rx_pointing_loss_db=0.0,
                 gas_loss_db=0.0, cloud_loss_db=0.0, rain_loss_db=0.0, scintillation_loss_db=0.0,
                 polarization_loss_db=0.0, other_losses_db=0.0, sky_noise_increase_k=0.0,
                 implementation_loss_db=0.0, required_margin_db=0.0) -> dict[str, np.ndarray]:
     """Term-by-term link budget; all inputs broadcast together.
+
+    The receiver is given either by its gain and clear-sky noise temperature
+    (``rx_gain_dbi`` and ``clear_sky_noise_temperature_k``, with the feed loss
+    ``rx_line_loss_db``), or by its clear-sky G/T alone (``gt_dbk``). Gain and
+    noise are referred to the LNA input: G/T = G_rx - L_feed - 10 log10(T_sys).
 
     Parameters
     ----------
@@ -102,16 +117,23 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
         Transmit antenna boresight gain [dBi].
     free_space_loss_db : array_like
         Free-space loss [dB].
-    rx_gain_dbi : array_like
-        Receive antenna boresight gain [dBi].
-    clear_sky_noise_temperature_k : array_like
-        System noise temperature in clear sky [K].
     rate_bps : array_like
         Information rate [bit/s].
     ebn0_required_db : array_like
         Required Eb/N0 of the coded modulation at its error target [dB].
+    rx_gain_dbi : array_like, optional
+        Receive antenna boresight gain at the antenna terminal [dBi].
+    clear_sky_noise_temperature_k : array_like, optional
+        System noise temperature in clear sky at the LNA input [K].
+    gt_dbk : array_like, optional
+        Clear-sky G/T of the receiver [dB/K], instead of gain and temperature;
+        the sky-noise increase must then be 0 (it needs the temperature) and
+        the terms of :data:`RECEIVER_TERMS` are left out of the result.
     tx_line_loss_db : array_like, optional
         Loss between amplifier and antenna [dB].
+    rx_line_loss_db : array_like, optional
+        Loss between the receive antenna terminal and the LNA (feed loss) [dB]; with
+        ``gt_dbk`` it must be 0 (a G/T is already referred to its reference plane).
     tx_pointing_loss_db, rx_pointing_loss_db : array_like, optional
         Pointing losses of each end [dB].
     gas_loss_db, cloud_loss_db, rain_loss_db, scintillation_loss_db : array_like, optional
@@ -119,7 +141,7 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
     polarization_loss_db, other_losses_db : array_like, optional
         [dB].
     sky_noise_increase_k : array_like, optional
-        Increase of system noise temperature over clear sky at the availability [K].
+        Increase of system noise temperature over clear sky at the availability, at the LNA input [K].
     implementation_loss_db : array_like, optional
         Modem implementation loss [dB].
     required_margin_db : array_like, optional
@@ -128,7 +150,14 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
     Returns
     -------
     terms : dict of ndarray
-        The keys of :data:`BUDGET_TERMS`.
+        The keys of :data:`BUDGET_TERMS` (without :data:`RECEIVER_TERMS` when
+        the receiver is given by ``gt_dbk``).
+
+    Raises
+    ------
+    ValueError
+        When the receiver is given both ways or neither, or by ``gt_dbk`` with a
+        non-zero sky-noise increase.
 
     References
     ----------
@@ -136,17 +165,34 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
     Recommendation ITU-R P.618-13 section 2.5.
     """
     f = lambda x: np.asarray(x, dtype=float)  # noqa: E731
+    by_gt = gt_dbk is not None
+    parts = (rx_gain_dbi is not None, clear_sky_noise_temperature_k is not None)
+    if (by_gt and any(parts)) or (not by_gt and not all(parts)):
+        raise ValueError("give the receiver by rx_gain_dbi and clear_sky_noise_temperature_k, or by gt_dbk")
+    if by_gt and (np.any(f(sky_noise_increase_k) != 0.0) or np.any(f(rx_line_loss_db) != 0.0)):
+        raise ValueError("a receiver given by gt_dbk is already referred to the LNA input and has no noise "
+                         "temperature: give no rx_line_loss_db or sky_noise_increase_k")
     tx_power_dbw = 10.0 * np.log10(f(tx_power_w))
     eirp = tx_power_dbw - f(tx_line_loss_db) + f(tx_gain_dbi)
     atmospheric = total_attenuation_db(gas_loss_db, cloud_loss_db, rain_loss_db, scintillation_loss_db)
     pointing = f(tx_pointing_loss_db) + f(rx_pointing_loss_db)
-    t_sys = f(clear_sky_noise_temperature_k) + f(sky_noise_increase_k)
-    gt = f(rx_gain_dbi) - 10.0 * np.log10(t_sys)
     losses = f(free_space_loss_db) + atmospheric + pointing + f(polarization_loss_db) + f(other_losses_db)
+    receiver = {}
+    if by_gt:
+        gt = f(gt_dbk)
+    else:
+        t_sys = f(clear_sky_noise_temperature_k) + f(sky_noise_increase_k)
+        gt = noise.gt_dbk(f(rx_gain_dbi), t_sys, feed_loss_db=f(rx_line_loss_db))
+        receiver = {
+            "rx_gain_dbi": f(rx_gain_dbi),
+            "received_power_dbw": eirp - losses + f(rx_gain_dbi) - f(rx_line_loss_db),
+            "clear_sky_noise_temperature_k": f(clear_sky_noise_temperature_k),
+            "system_noise_temperature_k": t_sys,
+        }
     cn0 = eirp - losses + gt - BOLTZMANN_DBW_PER_K_HZ
     ebn0 = cn0 - 10.0 * np.log10(f(rate_bps))
     margin = ebn0 - f(ebn0_required_db) - f(implementation_loss_db)
-    terms = {
+    values = {
         "tx_power_dbw": tx_power_dbw,
         "tx_line_loss_db": f(tx_line_loss_db),
         "tx_gain_dbi": f(tx_gain_dbi),
@@ -160,10 +206,8 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
         "pointing_loss_db": pointing,
         "polarization_loss_db": f(polarization_loss_db),
         "other_losses_db": f(other_losses_db),
-        "rx_gain_dbi": f(rx_gain_dbi),
-        "clear_sky_noise_temperature_k": f(clear_sky_noise_temperature_k),
+        "rx_line_loss_db": f(rx_line_loss_db),
         "sky_noise_increase_k": f(sky_noise_increase_k),
-        "system_noise_temperature_k": t_sys,
         "gt_dbk": gt,
         "boltzmann_dbw_per_k_hz": np.asarray(BOLTZMANN_DBW_PER_K_HZ),
         "cn0_dbhz": cn0,
@@ -175,5 +219,7 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rx_gain_dbi,
         "required_margin_db": f(required_margin_db),
         "max_rate_bps": max_rate_bps(cn0, ebn0_required_db, implementation_loss_db, required_margin_db),
     }
+    values.update(receiver)
+    terms = {k: values[k] for k in BUDGET_TERMS if k in values}
     shape = np.broadcast_shapes(*(np.shape(v) for v in terms.values()))
     return {k: (np.float64(v) if shape == () else np.broadcast_to(v, shape)) for k, v in terms.items()}

@@ -145,12 +145,33 @@ def noise_figure_to_temperature_k(noise_figure_db, *, reference_temperature_k=RE
     return restore_kind(t, widest(noise_figure_db, reference_temperature_k))
 
 
-def gt_dbk(gain_dbi, system_noise_temperature_k):
-    """Figure of merit G/T = G - 10 log10(T_sys) [dB/K].
+def gt_dbk(gain_dbi, system_noise_temperature_k, *, feed_loss_db=0.0):
+    """Figure of merit G/T at the LNA input, G - L_feed - 10 log10(T_sys) [dB/K].
+
+    Gain and noise are referred to one plane, the LNA input: the antenna gain
+    is reduced by the feed loss between antenna terminal and LNA, and
+    ``system_noise_temperature_k`` must be the system noise temperature at the
+    LNA input (as :func:`system_noise_temperature_k` returns it).
+
+    Parameters
+    ----------
+    gain_dbi : array_like
+        Antenna gain at the antenna terminal [dBi].
+    system_noise_temperature_k : array_like
+        System noise temperature at the LNA input [K].
+    feed_loss_db : array_like, optional
+        Loss between the antenna terminal and the LNA [dB]; default 0.
+
+    Returns
+    -------
+    gt : same kind as the widest input
+        [dB/K].
 
     References
     ----------
-    Maral and Bousquet, *Satellite Communications Systems*, 5th ed., section 5.5.
+    Maral and Bousquet, *Satellite Communications Systems*, 5th ed., section 5.5
+    (G/T referred to the receiver input: G_R / (L_FRX T)).
     """
-    g = np.asarray(gain_dbi, dtype=float) - 10.0 * np.log10(np.asarray(system_noise_temperature_k, dtype=float))
-    return restore_kind(g, widest(gain_dbi, system_noise_temperature_k))
+    g = (np.asarray(gain_dbi, dtype=float) - np.asarray(feed_loss_db, dtype=float)
+         - 10.0 * np.log10(np.asarray(system_noise_temperature_k, dtype=float)))
+    return restore_kind(g, widest(gain_dbi, system_noise_temperature_k, feed_loss_db))

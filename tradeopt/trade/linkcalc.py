@@ -83,6 +83,10 @@ def compute_link(spec) -> dict:
 
     ends = {}
     for name, end in (("tx", spec.tx), ("rx", spec.rx)):
+        if end.gain_dbi is None and end.diameter_m is None:  # a receiver given by its G/T alone
+            bw = np.inf if end.beamwidth_deg is None else end.beamwidth_deg
+            ends[name] = (None, float(antenna.pointing_loss_db(end.pointing_error_deg, bw)), float(bw))
+            continue
         g, loss, bw = end_gain_and_pointing(frequency_hz=f_hz, gain_dbi=end.gain_dbi, diameter_m=end.diameter_m,
                                             efficiency=end.efficiency, beamwidth_deg=end.beamwidth_deg,
                                             pointing_error_deg=end.pointing_error_deg)
@@ -105,10 +109,11 @@ def compute_link(spec) -> dict:
         atm = {k: float(v[0]) for k, v in terms.items() if k != "total_db"}
         notes.extend(propagation.validity_notes(f_hz))
         if spec.direction == "downlink":
-            sky_rise = float(sky_noise_increase_at_receiver_k(atm["gas_db"], atm["cloud_db"], atm["rain_db"],
-                                                              spec.rx_feed_loss_db))
-            notes.append("sky-noise increase over clear sky from cloud and rain, ITU-R P.618-14 section 3, "
-                         "T_mr = 275 K")
+            if spec.rx_gt_dbk is None:
+                sky_rise = float(sky_noise_increase_at_receiver_k(atm["gas_db"], atm["cloud_db"], atm["rain_db"],
+                                                                  spec.rx_feed_loss_db))
+                notes.append("sky-noise increase over clear sky from cloud and rain, ITU-R P.618-14 section 3, "
+                             "T_mr = 275 K")
         else:
             notes.append("uplink: the spacecraft receiver sees the Earth; no sky-noise increase applied")
     else:
@@ -119,8 +124,9 @@ def compute_link(spec) -> dict:
         tx_pointing_loss_db=ends["tx"][1], rx_pointing_loss_db=ends["rx"][1], free_space_loss_db=fsl,
         gas_loss_db=atm["gas_db"], cloud_loss_db=atm["cloud_db"], rain_loss_db=atm["rain_db"],
         scintillation_loss_db=atm["scintillation_db"], polarization_loss_db=spec.polarization_loss_db,
-        other_losses_db=spec.other_losses_db, rx_gain_dbi=ends["rx"][0],
-        clear_sky_noise_temperature_k=spec.rx_clear_sky_noise_temperature_k, sky_noise_increase_k=sky_rise,
+        other_losses_db=spec.other_losses_db, rx_gain_dbi=ends["rx"][0], rx_line_loss_db=spec.rx_feed_loss_db,
+        clear_sky_noise_temperature_k=spec.rx_clear_sky_noise_temperature_k, gt_dbk=spec.rx_gt_dbk,
+        sky_noise_increase_k=sky_rise,
         rate_bps=spec.rate_bps, ebn0_required_db=spec.ebn0_required_db,
         implementation_loss_db=spec.implementation_loss_db, required_margin_db=spec.required_margin_db)
     out = {
@@ -130,7 +136,7 @@ def compute_link(spec) -> dict:
         "availability_percent": None if spec.site is None else float(spec.availability_percent),
         "range_m": float(range_m),
     }
-    out.update({k: float(v) for k, v in terms.items()})
+    out.update({k: (float(terms[k]) if k in terms else None) for k in budget.BUDGET_TERMS})
     out["tx_beamwidth_deg"] = ends["tx"][2]
     out["rx_beamwidth_deg"] = ends["rx"][2]
     out["assumptions"] = notes

@@ -156,8 +156,7 @@ def _ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
     st = space.site_terms
     site = int(space.limiting_site_g[g])
     t_clear_k = float(st.system_noise_temperature_k[g, 0] - st.sky_noise_increase_k[g, 0])
-    gain_minus_point_db = float(space.x_g[g] - (-st.free_space_loss_db[site] - st.atmospheric_db[g, site]
-                                                - 10.0 * np.log10(st.system_noise_temperature_k[g, site])))
+    gain_minus_point_db = float(space.x_g[g] - st.path_and_noise_db[g, site])
     return gain_minus_point_db, t_clear_k
 
 
@@ -221,8 +220,7 @@ def _evidence(scenario, res: TradeResult) -> None:
                                           diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
                                           feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
                                           elevation_deg=el, range_m=rng)
-            margin = (gain_minus_point - st.free_space_loss_db - st.atmospheric_db[0]
-                      - 10.0 * np.log10(st.system_noise_temperature_k[0]) + rest)
+            margin = gain_minus_point + st.path_and_noise_db[0] + rest
             for e, mgn in zip(el, margin):
                 res.elevation_margin.append({"band_id": space.band_id, "site_id": site.id, "elevation_deg": float(e),
                                              "margin_db": float(mgn)})
@@ -350,8 +348,7 @@ def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
                                       diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
                                       feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
                                       elevation_deg=el, range_m=rng)
-        x_k = gain_minus_point - st.free_space_loss_db - st.atmospheric_db[0] - 10.0 * np.log10(
-            st.system_noise_temperature_k[0])
+        x_k = gain_minus_point + st.path_and_noise_db[0]
         margin_kc = x_k[:, None] + rest_c[None, :]
         r_kc = np.minimum(rate * np.power(10.0, (margin_kc - scenario.required_margin_db) / 10.0), bw_cap[None, :])
         r_kc = np.where(usable[:, None], r_kc, 0.0)

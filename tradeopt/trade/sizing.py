@@ -46,8 +46,7 @@ class DishModel:
         gain, point, _ = end_gain_and_pointing(frequency_hz=space.frequency_hz, diameter_m=self.diameters_m,
                                                efficiency=self.efficiency,
                                                pointing_error_deg=self.pointing_error_deg)
-        per_site = -st.free_space_loss_db[None, :] - st.atmospheric_db - 10.0 * np.log10(st.system_noise_temperature_k)
-        self.x_d = np.asarray(gain) - np.asarray(point) + per_site.min(axis=1)
+        self.x_d = np.asarray(gain) - np.asarray(point) + st.path_and_noise_db.min(axis=1)
 
     def x_at(self, diameter_m):
         """X at any diameter inside the grid (linear interpolation of the grid values) [dB]."""

@@ -41,6 +41,18 @@ class SiteTerms:
     atmospheric_db: np.ndarray
     system_noise_temperature_k: np.ndarray
     sky_noise_increase_k: np.ndarray
+    feed_loss_db: np.ndarray  # (n_apertures, 1)
+
+    @property
+    def path_and_noise_db(self) -> np.ndarray:
+        """-L_fs - A_atm - L_feed - 10 log10(T_sys) per (aperture, site) [dB].
+
+        The site-dependent part of the margin: adding the antenna gain less the
+        pointing loss gives EIRP-free C/N0 terms with G/T at the LNA input
+        (:func:`tradeopt.physics.noise.gt_dbk`).
+        """
+        return (-self.free_space_loss_db[None, :] - self.atmospheric_db
+                + noise.gt_dbk(0.0, self.system_noise_temperature_k, feed_loss_db=self.feed_loss_db))
 
 
 @dataclass
@@ -145,7 +157,8 @@ def site_terms_for_apertures(scenario, sites, frequency_hz: float, *, diameter_m
     return SiteTerms(site_ids=[s.id for s in sites], elevation_deg=el, range_m=rng, free_space_loss_db=fsl,
                      gas_db=comp["gas_db"], cloud_db=comp["cloud_db"], rain_db=comp["rain_db"],
                      scintillation_db=comp["scintillation_db"], atmospheric_db=comp["total_db"],
-                     system_noise_temperature_k=t_clear[:, None] + rise, sky_noise_increase_k=rise)
+                     system_noise_temperature_k=t_clear[:, None] + rise, sky_noise_increase_k=rise,
+                     feed_loss_db=feed[:, None].copy())
 
 
 def _filter(table, column: str, allowed):
@@ -218,7 +231,7 @@ def build_band_space(scenario, band_id: str) -> BandSpace:
     st = site_terms_for_apertures(scenario, required, f_hz, diameter_m=ground["diameter_m"].to_numpy(float),
                                   efficiency=ground["efficiency"].to_numpy(float),
                                   feed_loss_db=ground["feed_loss_db"].to_numpy(float), clear_sky_temperature_k=t_clear)
-    per_site = -st.free_space_loss_db[None, :] - st.atmospheric_db - 10.0 * np.log10(st.system_noise_temperature_k)
+    per_site = st.path_and_noise_db
     worst = np.argmin(per_site, axis=1) if len(ground) else np.zeros(0, dtype=int)
     x_g = g_gain - g_point + (per_site[np.arange(len(ground)), worst] if len(ground) else np.zeros(0))
 
