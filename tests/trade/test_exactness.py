@@ -258,7 +258,9 @@ def brute_force(case: dict, catalog) -> list:
                                             m["amplifier_id"], c["modcod_id"]),
                                     "margin_db": margin, "margins": margins, "mass_kg": mass, "dc_power_w": dc,
                                     "bandwidth_hz": bw, "pfd_excess_db": pfd, "feasible": feasible,
-                                    "objective": mass if s["objective"] == "mass" else dc})
+                                    "objective": mass if s["objective"] == "mass" else dc,
+                                    "other": dc if s["objective"] == "mass" else mass,
+                                    "diameter_m": float(g["diameter_m"])})
     return out
 
 
@@ -311,15 +313,17 @@ def check_case(case: dict) -> dict:
         assert abs(best["margin_db"] - mine["margin_db"]) < 1e-9
         obj = best["mass_kg"] if res.objective == "mass" else best["dc_power_w"]
         assert obj == mine["objective"]
-        # The same optimum objective; no feasible design beats it (objective, then larger margin).
-        bf_best = min(feasible, key=lambda d: (round(d["objective"], 9), -d["margin_db"]))
+        # The same optimum objective; no feasible design beats it in the stated order: objective, the
+        # other resource, the smaller ground dish, the narrower bandwidth, the larger margin.
+        def order(d):
+            return (round(d["objective"], 9), round(d["other"], 9), d["diameter_m"], d["bandwidth_hz"],
+                    -round(d["margin_db"], 9))
+        bf_best = min(feasible, key=order)
         assert abs(bf_best["objective"] - obj) <= TOL * max(1.0, abs(obj))
         for d in feasible:
             assert d["objective"] >= obj - TOL * max(1.0, abs(obj)), (d["ids"], ids)
-            if abs(d["objective"] - obj) <= TOL * max(1.0, abs(obj)):
-                assert d["margin_db"] <= best["margin_db"] + 1e-9, (d["ids"], ids)
-        ties = [d for d in feasible if abs(d["objective"] - bf_best["objective"]) <= TOL * max(1.0, abs(obj))
-                and abs(d["margin_db"] - bf_best["margin_db"]) <= 1e-9]
+        assert order(mine) == order(bf_best), (ids, bf_best["ids"])
+        ties = [d for d in feasible if order(d) == order(bf_best)]
         if len(ties) == 1:
             assert ids == bf_best["ids"]
         # budget_of_design (the ``tradeopt budget`` path) agrees at every required site.

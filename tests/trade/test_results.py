@@ -62,8 +62,10 @@ def runs(tmp_path_factory):
     second = _run(["optimize", "--out", str(out), "--json"], cwd=base, seed=918273)
     budget = _run(["budget", str(run1 / "best_link.toml"), "--json"], cwd=base, seed=0)
     second_out, budget_out = _finish(second), _finish(budget)
+    power = base / "power"
+    power_out = _finish(_run(["optimize", "--objective", "power", "--out", str(power), "--json"], cwd=base, seed=0))
     return SimpleNamespace(out=out, run1=run1, json1=json.loads(first), json2=json.loads(second_out),
-                           budget=json.loads(budget_out))
+                           budget=json.loads(budget_out), power=power, json_power=json.loads(power_out))
 
 
 def _csv(run_dir: Path, name: str) -> pd.DataFrame:
@@ -109,36 +111,67 @@ def test_counts_match_designs_csv(runs):
     assert not designs.duplicated(ID_COLUMNS).any()
 
 
-def test_best_is_feasible_and_unbeaten(runs):
-    designs = _csv(runs.run1, "designs.csv")
-    best = runs.json1["best"]
-    objective = _best_json(runs)["objective"]
-    col = "mass_kg" if objective == "mass" else "dc_power_w"
+def _row_of(designs: pd.DataFrame, best: dict) -> pd.Series:
     row = designs[(designs["band_id"] == best["band_id"]) & (designs["ground_antenna_id"] == best["ground_antenna"])
                   & (designs["spacecraft_antenna_id"] == best["spacecraft_antenna"])
                   & (designs["amplifier_id"] == best["amplifier"]) & (designs["modcod_id"] == best["modcod"])]
     assert len(row) == 1
-    row = row.iloc[0]
+    return row.iloc[0]
+
+
+RESOURCES = {"mass": ("mass_kg", "dc_power_w"), "power": ("dc_power_w", "mass_kg")}
+
+
+@pytest.mark.parametrize("objective", ["mass", "power"])
+def test_best_is_feasible_and_first_in_the_stated_order(runs, objective):
+    # Bug caught: ties on the objective going to the larger margin (the largest ground dish always
+    # won, and with the power objective a heavier design at the same power was chosen). The order is
+    # the README's: objective, other resource, smaller dish, narrower bandwidth, larger margin.
+    run_dir, summary = (runs.run1, runs.json1) if objective == "mass" else (runs.power, runs.json_power)
+    designs = _csv(run_dir, "designs.csv")
+    best = summary["best"]
+    row = _row_of(designs, best)
     assert bool(row["feasible"]) and row["reason"] == "feasible"
     assert math.isclose(row["margin_db"], best["margin_db"], rel_tol=1e-9)
     feasible = designs[designs["feasible"]]
-    obj = row[col]
-    tol = 1e-9 * max(1.0, abs(obj))
-    assert not (feasible[col] < obj - tol).any()
-    same = feasible[(feasible[col] - obj).abs() <= tol]
-    assert not (same["margin_db"] > row["margin_db"] + 1e-9).any()
+    first, second = RESOURCES[objective]
+    # No feasible design is at least as good on (objective, other resource, dish) and better on one.
+    axes = [first, second, "ground_diameter_m"]
+    f = feasible[axes].to_numpy(float)
+    b = row[axes].to_numpy(float)
+    tol = 1e-9 * np.maximum(1.0, np.abs(b))
+    le = (f <= b + tol).all(axis=1)
+    lt = (f < b - tol).any(axis=1)
+    assert not (le & lt).any()
+    # Brute force of the whole order (values rounded as the search rounds them).
+    order = feasible.assign(_o=feasible[first].round(9), _r=feasible[second].round(9),
+                            _m=-feasible["margin_db"].round(9))
+    top = order.sort_values(["_o", "_r", "ground_diameter_m", "occupied_bandwidth_hz", "_m"], kind="stable").iloc[0]
+    assert tuple(top[ID_COLUMNS]) == tuple(row[ID_COLUMNS])
+    # The largest catalog dish must not be the default answer when a smaller one closes.
+    assert row["ground_diameter_m"] < designs["ground_diameter_m"].max()
 
 
-def test_pareto_is_the_nondominated_feasible_set(runs):
-    designs = _csv(runs.run1, "designs.csv")
-    pareto = _csv(runs.run1, "pareto.csv")
-    assert len(pareto) >= 1
-    assert pareto["feasible"].all()
-    feasible = designs[designs["feasible"]]
-    members = pareto.merge(feasible[ID_COLUMNS], on=ID_COLUMNS, how="inner")
-    assert len(members) == len(pareto), "a Pareto member is not a feasible design of designs.csv"
+@pytest.mark.parametrize("objective", ["mass", "power"])
+def test_best_and_each_band_best_are_pareto_members(runs, objective):
+    # Bug caught: a chosen design that is not on the tool's own front (a reviewer's first question).
+    run_dir = runs.run1 if objective == "mass" else runs.power
+    pareto = _csv(run_dir, "pareto.csv")
+    keys = {tuple(r) for r in pareto[ID_COLUMNS].itertuples(index=False)}
+    best = json.loads((run_dir / "best.json").read_text(encoding="utf-8"))
+    ids = lambda d: (d["band_id"], d["ground_antenna"], d["spacecraft_antenna"], d["amplifier"], d["modcod"])  # noqa: E731
+    assert ids(best["best"]) in keys
+    on = pareto[pareto["on_overall_front"]]
+    assert ids(best["best"]) in {tuple(r) for r in on[ID_COLUMNS].itertuples(index=False)}
+    bands = _csv(run_dir, "bands.csv")
+    for _, b in bands[bands["feasible"]].iterrows():
+        assert (b["band_id"], b["ground_antenna_id"], b["spacecraft_antenna_id"], b["amplifier_id"],
+                b["modcod_id"]) in keys, b["band_id"]
+
+
+def _nondominated_check(feasible: pd.DataFrame, members: pd.DataFrame) -> None:
     f = feasible[PARETO_AXES].to_numpy(float)
-    p = pareto[PARETO_AXES].to_numpy(float)
+    p = members[PARETO_AXES].to_numpy(float)
     # No feasible design dominates a member (<= on every axis and < on one).
     le = (f[:, None, :] <= p[None, :, :]).all(axis=2)
     lt = (f[:, None, :] < p[None, :, :]).any(axis=2)
@@ -148,6 +181,20 @@ def test_pareto_is_the_nondominated_feasible_set(runs):
     assert covered.all()
     # Members are mutually distinct points.
     assert len(np.unique(p, axis=0)) == len(p)
+
+
+def test_pareto_is_the_nondominated_feasible_set(runs):
+    # pareto.csv holds each band's front; the rows flagged on_overall_front are the front of all bands.
+    designs = _csv(runs.run1, "designs.csv")
+    pareto = _csv(runs.run1, "pareto.csv")
+    assert len(pareto) >= 1
+    assert pareto["feasible"].all()
+    feasible = designs[designs["feasible"]]
+    members = pareto.merge(feasible[ID_COLUMNS], on=ID_COLUMNS, how="inner")
+    assert len(members) == len(pareto), "a Pareto member is not a feasible design of designs.csv"
+    _nondominated_check(feasible, pareto[pareto["on_overall_front"]])
+    for band_id, rows in pareto.groupby("band_id"):
+        _nondominated_check(feasible[feasible["band_id"] == band_id], rows)
 
 
 def test_no_nan_or_inf_anywhere(runs):

@@ -381,11 +381,12 @@ def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str |
     designs = _designs_table(res)
     if not designs.empty:
         files["designs.csv"] = _csv(designs, vline)
-    pareto = pd.DataFrame([_design_row(res, res.space(r["band_id"]), r) for r in res.search.pareto])
+    pareto = pd.DataFrame([dict(_design_row(res, res.space(r["band_id"]), r),
+                                on_overall_front=r["on_overall_front"]) for r in res.search.pareto])
     if pareto.empty:
         pareto = pd.DataFrame(columns=["band_id", "ground_antenna_id", "spacecraft_antenna_id", "amplifier_id",
                                        "modcod_id", "ground_diameter_m", "mass_kg", "dc_power_w", "margin_db",
-                                       "occupied_bandwidth_hz", "feasible", "reason"])
+                                       "occupied_bandwidth_hz", "feasible", "reason", "on_overall_front"])
     files["pareto.csv"] = _csv(pareto, vline)
     files["bands.csv"] = _csv(_bands_table(res), vline)
     curve, dish, power = _dish_tables(res)

@@ -123,7 +123,7 @@ class SearchResult:
     designs_feasible: int = 0
     best_by_band: dict = field(default_factory=dict)  # band_id -> dict of the best feasible design
     closest_by_band: dict = field(default_factory=dict)  # band_id -> list of the closest infeasible designs
-    pareto: list = field(default_factory=list)  # list of dict
+    pareto: list = field(default_factory=list)  # each band's front, list of dict ("on_overall_front": bool)
     designs: list = field(default_factory=list)  # list of BlockResult-derived dicts (when kept)
     reason_counts: dict = field(default_factory=dict)
 
@@ -151,6 +151,7 @@ class _Fixed:
     code: np.ndarray  # first broken constraint among bandwidth, pfd, mass, dc (0: none)
     n_broken: np.ndarray
     objective: np.ndarray
+    other: np.ndarray  # the other spacecraft resource (DC power when minimising mass, and vice versa)
     diameter_m: np.ndarray  # per ground antenna
 
 
@@ -172,8 +173,9 @@ def _fixed(space, limits: Limits, objective: str) -> _Fixed:
         code[bad] = k
         n_broken += bad
     obj = np.ascontiguousarray(_objective(objective, mass, dc))
+    other = np.ascontiguousarray(_objective("power" if objective == "mass" else "mass", mass, dc))
     return _Fixed(rest_db=np.ascontiguousarray(rest), pfd_excess_db=pfd, mass_kg=np.ascontiguousarray(mass),
-                  dc_power_w=np.ascontiguousarray(dc), code=code, n_broken=n_broken, objective=obj,
+                  dc_power_w=np.ascontiguousarray(dc), code=code, n_broken=n_broken, objective=obj, other=other,
                   diameter_m=space.ground["diameter_m"].to_numpy(float))
 
 
@@ -198,18 +200,21 @@ def _record(space, fixed: _Fixed, limits: Limits, g: int, a: int, m: int, c: int
            "reason": reason, "shortfall": amounts[reason], "n_broken": int(fixed.n_broken[a, m, c]) + int(margin_bad),
            "ground_diameter_m": float(fixed.diameter_m[int(g)])}
     obj = float(fixed.objective[a, m, c])
-    rec["_key"] = (round(obj, 9), -round(margin, 9), band_order, rec["g"], rec["a"], rec["m"], rec["c"])
+    other = float(fixed.other[a, m, c])
+    rec["_key"] = (round(obj, 9), round(other, 9), rec["ground_diameter_m"], rec["bandwidth_hz"], -round(margin, 9),
+                   band_order, rec["g"], rec["a"], rec["m"], rec["c"])
     return rec
 
 
 def _merge_front(front: list, new: list) -> list:
-    """Non-dominated records in (mass, DC power, ground diameter); one per point, the largest margin."""
+    """Non-dominated records in (mass, DC power, ground diameter); one per point, chosen by the order of
+    :func:`search` (narrower occupied bandwidth, then larger margin), so the best design is a member."""
     import moocore  # noqa: PLC0415
 
     merged = new + front
     if not merged:
         return []
-    merged.sort(key=lambda r: (-r["margin_db"], r["_key"]))
+    merged.sort(key=lambda r: r["_key"])
     arr = np.array([[r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"]] for r in merged])
     keep = moocore.is_nondominated(arr, keep_weakly=False)
     return [r for r, k in zip(merged, keep) if k]
@@ -232,7 +237,9 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
     limits : Limits
         Required margin and spacecraft limits.
     objective : {"mass", "power"}
-        Minimise comm mass [kg] or DC power [W]; ties go to the larger margin.
+        Minimise comm mass [kg] or DC power [W]. The best design is chosen lexicographically: the
+        objective, then the other spacecraft resource, then the smaller ground dish, then the
+        narrower occupied bandwidth, then the larger margin (:data:`BEST_ORDER`).
     max_block_designs : int
         Largest number of designs held in memory at once.
     keep_designs : bool
@@ -248,7 +255,7 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
 
     res = SearchResult(objective=objective)
     counts = {name: 0 for name in REASONS.values()}
-    front: list = []
+    fronts: list = []
     req = limits.required_margin_db - 1e-12
     for order, space in enumerate(spaces):
         fx = _fixed(space, limits, objective)
@@ -262,6 +269,7 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
         # margin = X[g] + rest[a, m, c] >= required  <=>  X[g] >= required - rest[a, m, c]
         need = req - fx.rest_db
         best_rec = None
+        front: list = []
         for gs, as_ in iter_blocks(space.shape, max_block_designs):
             x = space.x_g[gs]
             # Every design of the block checked against the required margin, in one broadcast pass.
@@ -280,13 +288,20 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
                 res.designs.append((space, evaluate_block(space, limits, gs, as_)))
             if n_ok == 0:
                 continue
-            # Best design of the block: per (a, m, c) the largest margin is at the largest X.
-            g_loc = int(np.argmax(x))
-            m_amc = x[g_loc] + fx.rest_db[as_]
-            feas_amc = fixed_ok[as_] & (m_amc >= req)
-            obj = np.where(feas_amc, fx.objective[as_], np.inf).reshape(-1)
-            flat = np.lexsort((-np.where(feas_amc, m_amc, -np.inf).reshape(-1), np.round(obj, 9)))[0]
+            # Best design of the block, lexicographically: objective, the other resource, the smallest
+            # ground dish that closes, the narrowest occupied bandwidth, the largest margin.
+            d_close = np.where(closes, dia[gs][:, None, None, None], np.inf)  # (gb, ab, M, C)
+            d_amc = d_close.min(axis=0)
+            feas_amc = fixed_ok[as_] & np.isfinite(d_amc)
+            x_at = np.where(d_close == d_amc[None], x[:, None, None, None], -np.inf).max(axis=0)
+            m_amc = x_at + fx.rest_db[as_]
+            bw_amc = np.broadcast_to(space.bandwidth_c_hz[None, None, :], m_amc.shape)
+            inf = np.where(feas_amc, 0.0, np.inf)
+            flat = np.lexsort(tuple(v.reshape(-1) for v in (
+                -np.where(feas_amc, m_amc, -np.inf), bw_amc + inf, d_amc + inf,
+                np.round(fx.other[as_], 9) + inf, np.round(fx.objective[as_], 9) + inf)))[0]
             a_i, m_i, c_i = np.unravel_index(flat, m_amc.shape)
+            g_loc = int(np.argmax(np.where(closes[:, a_i, m_i, c_i] & (dia[gs] == d_amc[a_i, m_i, c_i]), x, -np.inf)))
             rec = _record(space, fx, limits, gs.start + g_loc, as_.start + int(a_i), int(m_i), int(c_i), order)
             if best_rec is None or rec["_key"] < best_rec["_key"]:
                 best_rec = rec
@@ -302,10 +317,16 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
             pts = np.column_stack([fx.mass_kg[as_][ai, mi, 0], fx.dc_power_w[as_][ai, mi, 0], dia[gs][gi]])
             sort = np.argsort(-(x[gi] + r_top[as_][ai, mi]), kind="stable")
             keep = moocore.is_nondominated(pts[sort], keep_weakly=False)
+            # At that dish, the modulation by the order of the best design: narrowest bandwidth, then margin.
+            ok_c = fixed_ok[as_][ai, mi] & (x[gi][:, None] + fx.rest_db[as_][ai, mi] >= req)  # (K, C)
+            bw_c = np.where(ok_c, space.bandwidth_c_hz[None, :], np.inf)
+            tie = ok_c & (bw_c == bw_c.min(axis=1, keepdims=True))
+            c_pick = np.argmax(np.where(tie, fx.rest_db[as_][ai, mi], -np.inf), axis=1)
             cand = [_record(space, fx, limits, gs.start + int(gi[k]), as_.start + int(ai[k]), int(mi[k]),
-                            int(c_top[as_][ai[k], mi[k]]), order) for k in sort[keep]]
+                            int(c_pick[k]), order) for k in sort[keep]]
             front = _merge_front(front, cand)
         res.best_by_band[space.band_id] = best_rec
+        fronts.extend(front)
         # Closest infeasible designs: for each (a, m, c) the largest-margin ground antenna is the
         # closest of its row (same fixed constraints, least margin shortfall).
         closest = []
@@ -328,7 +349,14 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
                 a_i, m_i, c_i = np.unravel_index(flat, fx.code.shape)
                 closest.append(_record(space, fx, limits, g_top, int(a_i), int(m_i), int(c_i), order))
         res.closest_by_band[space.band_id] = closest
-    front.sort(key=lambda r: (r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"], r["_key"]))
-    res.pareto = front
+    # Each band's own front (so each band's best is a member), flagged where it is also on the front
+    # of all bands together.
+    fronts.sort(key=lambda r: r["_key"])
+    if fronts:
+        arr = np.array([[r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"]] for r in fronts])
+        for r, on in zip(fronts, moocore.is_nondominated(arr, keep_weakly=False)):
+            r["on_overall_front"] = bool(on)
+    fronts.sort(key=lambda r: (r["mass_kg"], r["dc_power_w"], r["ground_diameter_m"], r["_key"]))
+    res.pareto = fronts
     res.reason_counts = counts
     return res
