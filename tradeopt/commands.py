@@ -125,7 +125,13 @@ def run_demand(*, scenario_path=None, as_json=False) -> int:
     for c in dplan.compression:
         if c["measured"]:
             meas = ", ".join(f"{k} {v:.3f}" for k, v in sorted(c["measured"].items()))
-            lines.append(f"  {c['name']}: compression measured on the sample file: {meas}; using {c['codec']}")
+            size = ""
+            if c.get("sample_bytes") is not None:
+                whole = c["sample_bytes"] >= c["sample_file_bytes"]
+                size = (f" ({'all' if whole else 'the first'} {c['sample_bytes']} bytes"
+                        + ("" if whole else f" of {c['sample_file_bytes']}") + ")")
+            lines.append(f"  {c['name']}: compression measured on the sample file{size}: {meas}; "
+                         f"using {c['codec']}")
     for q in dplan.quantization:
         extra = ""
         if q["required_snr_db"] is not None:

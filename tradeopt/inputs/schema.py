@@ -99,8 +99,10 @@ def _short_int(value: int) -> _Shown:
     magnitude = abs(value)
     if magnitude.bit_length() <= 64:
         return _Shown(f"{value}")
-    digits = math.floor(magnitude.bit_length() * math.log10(2)) + 1  # within one of the digit count
-    return _Shown(f"{'a negative' if value < 0 else 'an'} integer of about {digits} digits")
+    digits = math.floor(magnitude.bit_length() * math.log10(2)) + 1  # the digit count or one more
+    if magnitude < 10 ** (digits - 1):
+        digits -= 1
+    return _Shown(f"{'a negative' if value < 0 else 'an'} integer of {digits} digits")
 
 
 def _fail(field: Field, value, file, where, detail: str = "") -> InputError:
@@ -273,10 +275,12 @@ def _not_regular(mode: int) -> str | None:
 
 
 def _size_text(n_bytes: int) -> str:
-    """A size in bytes as MiB or GiB text for messages."""
+    """A size [byte] as text for messages (bytes, MiB or GiB)."""
     if n_bytes >= 1024**3:
         return f"{n_bytes / 1024**3:.1f} GiB"
-    return f"{n_bytes / 1024**2:.1f} MiB"
+    if n_bytes >= 1024**2:
+        return f"{n_bytes / 1024**2:.1f} MiB"
+    return f"{n_bytes} bytes"
 
 
 def read_input_bytes(path, *, limit_bytes: int, what: str) -> bytes:

@@ -16,7 +16,7 @@ code: it includes framing and ARQ overhead but not the code's redundancy
 
 All model functions are pure and vectorized: scalars, numpy arrays or pandas
 Series in, the same kind out (a numpy scalar for scalar input).  The one
-exception is :func:`measure_compression`, which reads a sample file.
+exception is :func:`measure_compression`, which reads (the start of) a sample file.
 
 References
 ----------
@@ -39,6 +39,7 @@ import bz2
 import lzma
 import math
 import os
+import stat
 import zlib
 from dataclasses import dataclass, fields
 from typing import Mapping, Sequence
@@ -55,6 +56,7 @@ __all__ = [
     "CCSDS_TM_PRIMARY_HEADER_BYTES",
     "CCSDS_TM_FECF_BYTES",
     "LZMA_PRESET",
+    "COMPRESSION_SAMPLE_BYTES",
     "ARQ_SCHEMES",
     "sampling_rate_hz",
     "is_aliased",
@@ -63,6 +65,7 @@ __all__ = [
     "raw_rate_bps",
     "compression_ratios",
     "measure_compression",
+    "compression_sample_bytes",
     "frame_efficiency",
     "frame_error_rate",
     "arq_efficiency",
@@ -85,6 +88,9 @@ CCSDS_TM_FECF_BYTES = 2
 #: The lzma preset used by :func:`compression_ratios` (6, the library's default:
 #: 8 MiB dictionary, about 94 MiB of memory to compress).
 LZMA_PRESET = 6
+#: Bytes of a compression sample file that are measured: the first 4 MiB [byte]. Bounds the
+#: measurement's time (a few seconds for incompressible data, all three codecs) and memory.
+COMPRESSION_SAMPLE_BYTES = 4 * 1024 * 1024
 #: Accepted ARQ scheme names.
 ARQ_SCHEMES = ("stop-and-wait", "go-back-n", "selective-repeat")
 
@@ -312,45 +318,83 @@ def compression_ratios(data: bytes) -> dict[str, float]:
     }
 
 
-def measure_compression(path) -> dict[str, float]:
+def measure_compression(path, *, max_bytes: int | None = None) -> dict[str, float]:
     """Measure lossless compression ratios on a sample file.
 
-    Reads the whole file into memory and runs :func:`compression_ratios` on
-    its bytes: zlib (level 9), bz2 (level 9) and lzma (preset 6).
+    Reads at most the first ``max_bytes`` (default :data:`COMPRESSION_SAMPLE_BYTES`,
+    4 MiB) of the file and runs :func:`compression_ratios` on them: zlib
+    (level 9), bz2 (level 9) and lzma (preset 6). Bounding the sample bounds the
+    time and memory of the measurement whatever the file's size. Only a regular
+    file is read: it is opened without blocking, so a named pipe never hangs.
 
     Parameters
     ----------
     path : str or os.PathLike
         A sample file of the instrument's raw data.
+    max_bytes : int, optional
+        Largest number of bytes measured, from the start of the file [byte];
+        default :data:`COMPRESSION_SAMPLE_BYTES`.
 
     Returns
     -------
     ratios : dict
-        Codec name -> original bytes / compressed bytes [-].
+        Codec name -> original bytes / compressed bytes [-], on the measured bytes.
 
     Raises
     ------
     FileNotFoundError
         If ``path`` does not exist.
     ValueError
-        If the file is empty (the ratio is undefined) or is a directory.
+        If the file is empty (the ratio is undefined), or is a directory, a
+        named pipe, a device or anything else that is not a regular file.
 
     References
     ----------
     Python standard library ``zlib``, ``bz2``, ``lzma``.
     """
     path = os.fspath(path)
+    limit = COMPRESSION_SAMPLE_BYTES if max_bytes is None else int(max_bytes)
+    if limit < 1:
+        raise ValueError(f"max_bytes must be at least 1, got {max_bytes!r}")
     if not os.path.exists(path):
         raise FileNotFoundError(f"sample file {path!r} does not exist; give the path of a file "
                                 f"holding a representative sample of the instrument's data")
     if os.path.isdir(path):
         raise ValueError(f"{path!r} is a directory; give the path of a sample data file")
-    with open(path, "rb") as fh:
-        data = fh.read()
+    if not stat.S_ISREG(os.stat(path).st_mode):
+        raise ValueError(f"sample file {path!r} is not a regular file (a named pipe or a device?); "
+                         f"give the path of a sample data file")
+    fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0))
+    with os.fdopen(fd, "rb") as fh:
+        if not stat.S_ISREG(os.fstat(fh.fileno()).st_mode):  # replaced since the first look
+            raise ValueError(f"sample file {path!r} is not a regular file; give the path of a sample data file")
+        data = fh.read(limit)
     if not data:
         raise ValueError(f"sample file {path!r} is empty, so its compression ratio is undefined; "
                          f"give a file with a representative sample of the instrument's data")
     return compression_ratios(data)
+
+
+def compression_sample_bytes(path, *, max_bytes: int | None = None) -> tuple[int, int]:
+    """How much of a sample file :func:`measure_compression` measures.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The sample file.
+    max_bytes : int, optional
+        As in :func:`measure_compression` [byte]; default :data:`COMPRESSION_SAMPLE_BYTES`.
+
+    Returns
+    -------
+    measured_bytes : int
+        Bytes measured, from the start of the file [byte].
+    file_bytes : int
+        Size of the file [byte].
+    """
+    limit = COMPRESSION_SAMPLE_BYTES if max_bytes is None else int(max_bytes)
+    size = os.stat(os.fspath(path)).st_size
+    return min(size, limit), size
 
 
 # ---------------------------------------------------------------------------

@@ -234,6 +234,7 @@ def demand_plan(scenario) -> DemandPlan:
         if p["compression_sample_file"] is not None:
             try:
                 measured = dm.measure_compression(p["compression_sample_file"])
+                sample_bytes, file_bytes = dm.compression_sample_bytes(p["compression_sample_file"])
             except (OSError, ValueError) as exc:
                 raise InputError(str(exc), file=scenario.file, where="key [[payloads]] compression_sample_file") from None
             codec = max(measured, key=measured.get) if p["compression_codec"] == "best" else p["compression_codec"]
@@ -242,6 +243,8 @@ def demand_plan(scenario) -> DemandPlan:
             ratio, codec = 1.0, "none"
         compression.append({"name": p["name"], "compression_ratio": float(ratio), "codec": codec,
                             "measured": measured})
+        if measured is not None:  # bytes measured (the first COMPRESSION_SAMPLE_BYTES at most) and file size
+            compression[-1].update(sample_bytes=sample_bytes, sample_file_bytes=file_bytes)
         if p["bits_per_sample"] is not None:
             snr = float(dm.quantization_snr_db(p["bits_per_sample"]))
             need = p["required_snr_db"]
@@ -273,6 +276,12 @@ def demand_plan(scenario) -> DemandPlan:
     except ValueError as exc:
         raise InputError(str(exc), file=scenario.file, where="table [[payloads]]") from None
     warnings = []
+    for c in compression:
+        if c.get("sample_bytes") is not None and c["sample_file_bytes"] > c["sample_bytes"]:
+            warnings.append(f"payload {c['name']!r}: compression measured on the first {c['sample_bytes']} bytes "
+                            f"of the {c['sample_file_bytes']}-byte sample file only (at most "
+                            f"{dm.COMPRESSION_SAMPLE_BYTES / 2**20:g} MiB is measured); the ratio holds if that "
+                            "start is representative")
     for p in scenario.payloads:
         if p["sampling_rate_hz"] is not None and p["signal_bandwidth_hz"] is not None \
                 and dm.is_aliased(p["sampling_rate_hz"], p["signal_bandwidth_hz"]):
