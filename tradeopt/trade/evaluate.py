@@ -315,13 +315,15 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
             ai, mi = np.nonzero(any_g)
             gi = perm[first[ai, mi]]
             pts = np.column_stack([fx.mass_kg[as_][ai, mi, 0], fx.dc_power_w[as_][ai, mi, 0], dia[gs][gi]])
-            sort = np.argsort(-(x[gi] + r_top[as_][ai, mi]), kind="stable")
-            keep = moocore.is_nondominated(pts[sort], keep_weakly=False)
-            # At that dish, the modulation by the order of the best design: narrowest bandwidth, then margin.
+            # At that dish, the modulation by the order of the best design: narrowest bandwidth, then margin;
+            # duplicates of a point keep the first in that order.
             ok_c = fixed_ok[as_][ai, mi] & (x[gi][:, None] + fx.rest_db[as_][ai, mi] >= req)  # (K, C)
             bw_c = np.where(ok_c, space.bandwidth_c_hz[None, :], np.inf)
             tie = ok_c & (bw_c == bw_c.min(axis=1, keepdims=True))
             c_pick = np.argmax(np.where(tie, fx.rest_db[as_][ai, mi], -np.inf), axis=1)
+            margin_pick = x[gi] + fx.rest_db[as_][ai, mi, c_pick]
+            sort = np.lexsort((-np.round(margin_pick, 9), space.bandwidth_c_hz[c_pick]))
+            keep = moocore.is_nondominated(pts[sort], keep_weakly=False)
             cand = [_record(space, fx, limits, gs.start + int(gi[k]), as_.start + int(ai[k]), int(mi[k]),
                             int(c_pick[k]), order) for k in sort[keep]]
             front = _merge_front(front, cand)
