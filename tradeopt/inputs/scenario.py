@@ -421,6 +421,12 @@ def _unused_settings(data: dict, req: dict, arq: dict, sites: list, *, propagate
         if unused:
             notes.append(f"NOTE: {' and '.join(unused)} not used by optimize: the ground-network choice needs a daily "
                          "volume, and [requirement] rate_bps is given")
+    elif isinstance(data.get("network"), dict) and "rate_bps" in data["network"]:
+        notes.append("NOTE: [network] rate_bps sets only the ARQ frame time; the ground-network choice uses the rate "
+                     "the best design closes at each site")
+    if not (isinstance(data.get("link"), dict) and "polarization_tilt_deg" in data["link"]):
+        notes.append("NOTE: polarization tilt 45 deg (circular polarization) for rain attenuation (ITU-R P.838), the "
+                     "default of [link] polarization_tilt_deg; ground beamwidths are 70 lambda/D")
     return notes
 
 

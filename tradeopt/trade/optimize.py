@@ -293,6 +293,7 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
             if len(space.ground) == 0:
                 continue
             model = dish_model(scenario, space)
+            res.notes.extend(model.notes)
             res.curves[space.band_id] = dish_curve(model, space, limits, objective)
             rest = (space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :]
                     + space.const_db).reshape(-1)
@@ -303,27 +304,34 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
     if best is not None and mission.plan is not None:
         res.volume = _volume_analysis(scenario, res, best)
         if mission.daily_volume_bits is not None:
-            rates = {r["site_id"]: r["rate_at_mask_bps"] for r in res.volume["sites"]}
+            rates = {r["site_id"]: r["closing_rate_bps"] for r in res.volume["sites"]}
             mission.network = network_choice(scenario, mission.plan, mission.daily_volume_bits, rates)
     return res
 
 
 def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
-    """Daily volume of the best hardware at a fixed rate and with adaptive coding and modulation.
+    """Daily volume of the best hardware: its fixed rate, the best fixed rate, and variable rate (ACM).
 
-    Per required site and elevation bin (lower edge e_k), each coded modulation's
-    largest rate that keeps the required margin at e_k is
-    R_c(e_k) = R 10^((M_c(e_k) - M_req) / 10), capped by the band's bandwidth;
-    the variable-rate volume sums, over bins, time x the best R_c; the best
-    fixed-rate alternative picks one threshold bin and one modulation.
-    Simultaneous visibility of two sites is counted for each site here.
+    One downlink at a time: the time is taken from the joint states of the sites
+    (:attr:`ContactPlan.joint_s_per_day`), so an instant seen by several required
+    sites counts once, and is assigned to the site that carries the highest rate
+    then (ties: the first listed). Each visible site is evaluated at its bin's
+    lower edge, at least its own mask (a geostationary slot: its real elevation).
+    For coded modulation c at site s and elevation e, the largest rate that keeps
+    the required margin is R_c(s, e) = R 10^((M_c(s, e) - M_req) / 10), capped by
+    the band's bandwidth.
+
+    * fixed rate: the design's rate R whenever a required site sees the
+      spacecraft and the design closes there;
+    * best fixed rate: over thresholds theta (the bin edges), one modulation and
+      one rate R_theta = max_c min_s R_c(s, max(theta, mask_s)), delivered while a
+      required site is at or above max(theta, its mask);
+    * variable rate (ACM): at every instant the largest R_c(s, e) over the
+      visible required sites and every modulation.
     """
-    from ..mission.volume import variable_rate_volume_bits  # noqa: PLC0415
-
     space = res.space(best["band_id"])
     plan = res.mission.plan
     edges = np.asarray(plan.bin_edges_deg, dtype=float)
-    lower = edges[:-1]
     g = best["g"]
     row = space.ground.iloc[g]
     gain_minus_point, t_clear = _ground_terms(space, g)
@@ -332,43 +340,82 @@ def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
     roll = space.modcods["rolloff"].to_numpy(float)
     bw_cap = space.available_bandwidth_hz * info / (1.0 + roll)
     rate = scenario.rate_bps
-    fixed_total = 0.0
-    variable_total = 0.0
-    per_threshold = np.zeros(lower.size)
-    sites = []
-    for i, site in enumerate(scenario.sites):
-        hist = plan.histogram_s_per_day[i]
-        usable = lower >= site.min_elevation_deg - 1e-9
-        el = np.where(usable, np.maximum(lower, 5.0), 90.0)
+    req_margin = scenario.required_margin_db
+    c_design = best["c"]
+    el_state = np.asarray(plan.joint_elevation_deg, dtype=float)
+    vis_state = np.asarray(plan.joint_visible, dtype=bool)
+    s_state = np.asarray(plan.joint_s_per_day, dtype=float)
+
+    def rates_at(site, el):
+        """R_c(site, el) [bit/s], shape (len(el), C), and the design's margin [dB] at el."""
+        el = np.asarray(el, dtype=float)
+        if el.size == 0:
+            return np.zeros((0, rest_c.size)), np.zeros(0)
         if scenario.altitude_m is not None:
-            rng = np.asarray(path.slant_range_m(scenario.altitude_m, el))
+            rng = np.asarray(path.slant_range_m(scenario.altitude_m, el), dtype=float)
         else:
             rng = np.full(el.shape, scenario.site_geometry[site.id][1])
-        st = site_terms_for_apertures(scenario, [site] * len(el), space.frequency_hz,
+        st = site_terms_for_apertures(scenario, [site] * el.size, space.frequency_hz,
                                       diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
                                       feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
                                       elevation_deg=el, range_m=rng)
-        x_k = gain_minus_point + st.path_and_noise_db[0]
-        margin_kc = x_k[:, None] + rest_c[None, :]
-        r_kc = np.minimum(rate * np.power(10.0, (margin_kc - scenario.required_margin_db) / 10.0), bw_cap[None, :])
-        r_kc = np.where(usable[:, None], r_kc, 0.0)
-        best_k = r_kc.max(axis=1)
-        v_var = float(variable_rate_volume_bits(best_k, hist))
-        v_fixed = rate * float(hist[usable].sum())
-        # a fixed rate chosen to close at threshold bin k delivers R_k x time above e_k
-        above = np.cumsum(hist[::-1])[::-1]
-        first = int(np.argmax(usable)) if usable.any() else None
-        sites.append({"site_id": site.id, "required": site.required, "fixed_rate_bits_per_day": v_fixed,
-                      "variable_rate_bits_per_day": v_var, "contact_s_per_day": float(hist[usable].sum()),
-                      "rate_at_mask_bps": float(best_k[first]) if first is not None else 0.0})
-        if not site.required:
-            continue
-        per_threshold += np.where(usable, best_k * above, 0.0)
-        fixed_total += v_fixed
-        variable_total += v_var
-    k_best = int(np.argmax(per_threshold))
-    return {"rate_bps": rate, "fixed_rate_bits_per_day": fixed_total, "variable_rate_bits_per_day": variable_total,
-            "best_fixed_threshold_deg": float(lower[k_best]), "best_fixed_bits_per_day": float(per_threshold[k_best]),
-            "variable_gain_percent": 100.0 * (variable_total / max(float(per_threshold[k_best]), 1e-30) - 1.0),
-            "bin_edges_deg": [float(e) for e in edges], "sites": sites}
+        margin = (gain_minus_point + st.path_and_noise_db[0])[:, None] + rest_c[None, :]
+        r = np.minimum(rate * np.power(10.0, (margin - req_margin) / 10.0), bw_cap[None, :])
+        return r, margin[:, c_design]
 
+    n_states, n_sites = vis_state.shape
+    acm = np.zeros((n_states, n_sites))  # best R_c per state and site
+    fixed_ok = np.zeros((n_states, n_sites), dtype=bool)  # the design closes at R there
+    closing_rate = {}
+    thresholds = edges[:-1]
+    r_theta_c = np.full((thresholds.size, rest_c.size), np.inf)  # min over required sites
+    required_idx = [i for i, st_ in enumerate(plan.sites) if st_.required]
+    for j, site in enumerate(plan.sites):
+        on = vis_state[:, j]
+        r_state, m_state = rates_at(site, el_state[on, j])
+        acm[on, j] = r_state.max(axis=1) if r_state.size else 0.0
+        fixed_ok[on, j] = m_state >= req_margin - 1e-9
+        # the rate the design (its own modulation) closes at the site's mask, within the bandwidth
+        el_mask = (plan.geometry[site.id][0] if plan.kind == "geostationary" else site.min_elevation_deg)
+        r_mask, _ = rates_at(site, [el_mask])
+        closing_rate[site.id] = float(r_mask[0, c_design])
+        if site.required:
+            r_th, _ = rates_at(site, np.maximum(thresholds, el_mask))
+            r_theta_c = np.minimum(r_theta_c, r_th)
+    req = np.zeros(n_sites, dtype=bool)
+    req[required_idx] = True
+    acm_req = np.where(vis_state & req[None, :], acm, 0.0)
+    assign = np.argmax(acm_req, axis=1)  # first of the highest
+    v_var_state = acm_req.max(axis=1) if n_sites else np.zeros(n_states)
+    fixed_state = (fixed_ok & vis_state & req[None, :]).any(axis=1)
+    fixed_site = np.argmax(np.where(fixed_ok & vis_state & req[None, :], acm, -1.0), axis=1)
+    union_s = float(s_state[(vis_state & req[None, :]).any(axis=1)].sum())
+    # best fixed: one modulation and rate, time while a required site is at or above its threshold
+    r_theta = r_theta_c.max(axis=1) if rest_c.size else np.zeros(thresholds.size)
+    c_theta = r_theta_c.argmax(axis=1) if rest_c.size else np.zeros(thresholds.size, dtype=int)
+    above = (el_state[:, :, None] >= thresholds[None, None, :] - 1e-9) & (vis_state & req[None, :])[:, :, None]
+    t_theta = (s_state[:, None] * above.any(axis=1)).sum(axis=0)  # (K,)
+    v_theta = np.where(np.isfinite(r_theta), r_theta, 0.0) * t_theta
+    k_best = int(np.argmax(v_theta)) if v_theta.size else 0
+    fixed_total = rate * float(s_state[fixed_state].sum())
+    variable_total = float((s_state * v_var_state).sum())
+    best_fixed = float(v_theta[k_best]) if v_theta.size else 0.0
+    sites = []
+    for j, site in enumerate(plan.sites):
+        own = float(s_state[vis_state[:, j]].sum())
+        mine_acm = (assign == j) & (v_var_state > 0)
+        mine_fixed = fixed_state & (fixed_site == j)
+        sites.append({"site_id": site.id, "required": site.required, "contact_s_per_day": own,
+                      "assigned_s_per_day": float(s_state[mine_acm].sum()) if site.required else 0.0,
+                      "fixed_rate_bits_per_day": rate * float(s_state[mine_fixed].sum()) if site.required else 0.0,
+                      "variable_rate_bits_per_day": (float((s_state * v_var_state)[mine_acm].sum())
+                                                     if site.required else 0.0),
+                      "closing_rate_bps": closing_rate[site.id]})
+    return {"rate_bps": rate, "union_contact_s_per_day": union_s, "fixed_rate_bits_per_day": fixed_total,
+            "variable_rate_bits_per_day": variable_total,
+            "best_fixed_threshold_deg": float(thresholds[k_best]) if thresholds.size else 0.0,
+            "best_fixed_rate_bps": float(r_theta[k_best]) if np.isfinite(r_theta[k_best]) else 0.0,
+            "best_fixed_modcod_id": str(space.modcods["modcod_id"].iloc[int(c_theta[k_best])]),
+            "best_fixed_bits_per_day": best_fixed,
+            "variable_gain_percent": 100.0 * (variable_total / max(best_fixed, 1e-30) - 1.0),
+            "bin_edges_deg": [float(e) for e in edges], "sites": sites}

@@ -71,6 +71,12 @@ class ContactPlan:
     histogram_s_per_day: np.ndarray  # (n_sites, n_bins)
     tle: tuple | None = None
     geometry: dict = field(default_factory=dict)  # site id -> (elevation_deg, range_m) for the budget
+    #: Joint states of all sites (one row per state, see :func:`tradeopt.mission.orbit.joint_visibility`):
+    #: the elevation at which each visible site is evaluated [deg] (its bin's lower edge, at least its mask;
+    #: the real elevation of a geostationary slot), whether it is visible, and the time in the state [s/day].
+    joint_elevation_deg: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
+    joint_visible: np.ndarray = field(default_factory=lambda: np.zeros((0, 0), dtype=bool))
+    joint_s_per_day: np.ndarray = field(default_factory=lambda: np.zeros(0))
     notes: list = field(default_factory=list)  # "WARNING: ..." lines (a TLE propagated far from its epoch)
 
 
@@ -118,6 +124,10 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
                     hist[i, k] = SECONDS_PER_DAY
         passes = pd.DataFrame(rows, columns=["site_index", "start_utc", "end_utc", "max_elevation_deg", "duration_s"])
         tle, notes = None, []
+        seen = np.array([geometry[s.id][0] >= s.min_elevation_deg for s in sites])
+        joint_el = np.array([[geometry[s.id][0] for s in sites]]) if seen.any() else np.zeros((0, len(sites)))
+        joint_vis = seen[None, :] if seen.any() else np.zeros((0, len(sites)), dtype=bool)
+        joint_s = np.array([SECONDS_PER_DAY]) if seen.any() else np.zeros(0)
     else:
         sat = satrec_for(scenario)
         step = scenario.contacts["step_s"]
@@ -130,6 +140,10 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
             frames.append(p)
         passes = pd.concat(frames, ignore_index=True).sort_values(["site_index", "start_utc"]).reset_index(drop=True)
         hist = np.asarray(orb.elevation_histogram(sat, start, days, table, np.asarray(edges), step_s=step))
+        masks = np.array([s.min_elevation_deg for s in sites])
+        jbins, joint_s = orb.joint_visibility(sat, start, days, table, np.asarray(edges), masks, step_s=step)
+        joint_vis = jbins >= 0
+        joint_el = np.where(joint_vis, np.maximum(np.asarray(edges, dtype=float)[np.maximum(jbins, 0)], masks), 0.0)
         tle = tuple(orb.export_tle(sat))
         age = orb.tle_age_warning(sat, start, days) if kind == "tle" else None
         notes = [f"WARNING: {age}"] if age else []
@@ -145,7 +159,7 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
     network = orb.network_contact_statistics(passes, start, days)
     return ContactPlan(start_utc=start, days=days, kind=kind, sites=list(sites), passes=passes, stats=stats,
                        network=network, bin_edges_deg=edges, histogram_s_per_day=hist, tle=tle, geometry=geometry,
-                       notes=notes)
+                       notes=notes, joint_elevation_deg=joint_el, joint_visible=joint_vis, joint_s_per_day=joint_s)
 
 
 def apply_contact_geometry(scenario, plan: ContactPlan) -> None:
@@ -320,37 +334,40 @@ def required_rate_bps(scenario, plan: ContactPlan, daily_volume_bits: float) -> 
 def network_choice(scenario, plan: ContactPlan, daily_volume_bits: float, rate_bps_by_site: dict):
     """Cheapest set of candidate sites (those with ``cost_per_year``) that delivers the daily volume.
 
-    Visibility is sampled in slots of ``[network] slot_s`` (whole slots inside a pass);
-    a slot counts once however many sites see it, and each site carries its own
-    rate (``[network] rate_bps`` when given, else the rate the design closes at that
-    site's mask). Solved with scipy.optimize.milp (see
-    :func:`tradeopt.mission.network.select_sites`).
+    Visibility is sampled in slots of ``[network] slot_s``; a slot partly covered
+    by a pass carries the covered fraction of the slot's time, and counts once
+    however many sites see it (one downlink). Each site carries the rate the
+    chosen design closes there (``rate_bps_by_site``). Solved with
+    scipy.optimize.milp (see :func:`tradeopt.mission.network.select_sites`).
     """
     from ..mission.network import select_sites  # noqa: PLC0415
 
     cand = [i for i, s in enumerate(plan.sites) if s.cost_per_year is not None]
     if not cand:
         return None
-    slot = scenario.network["slot_s"]
+    slot = float(scenario.network["slot_s"])
     n_slots = int(np.ceil(plan.days * SECONDS_PER_DAY / slot))
     t0 = plan.start_utc
-    vis = np.zeros((len(cand), n_slots), dtype=bool)
+    cover = np.zeros((len(cand), n_slots))  # fraction of each slot inside a pass
     for row, i in enumerate(cand):
         p = plan.passes[plan.passes["site_index"] == i]
         for a, b in zip(p["start_utc"].to_numpy("datetime64[ns]"), p["end_utc"].to_numpy("datetime64[ns]")):
-            k0 = int(np.ceil(((a - t0) / np.timedelta64(1, "ns")) / 1e9 / slot))
-            k1 = int(np.floor(((b - t0) / np.timedelta64(1, "ns")) / 1e9 / slot))
-            vis[row, max(0, k0):min(n_slots, k1)] = True  # whole slots inside the pass
+            a_s = max(0.0, ((a - t0) / np.timedelta64(1, "ns")) / 1e9)
+            b_s = min(n_slots * slot, ((b - t0) / np.timedelta64(1, "ns")) / 1e9)
+            if b_s <= a_s:
+                continue
+            k = np.arange(int(a_s // slot), min(n_slots, int(np.ceil(b_s / slot))))
+            overlap = np.minimum(b_s, (k + 1) * slot) - np.maximum(a_s, k * slot)
+            cover[row, k] = np.maximum(cover[row, k], np.clip(overlap / slot, 0.0, 1.0))
     costs = np.array([plan.sites[i].cost_per_year for i in cand])
-    fixed = scenario.network.get("rate_bps")
-    rate_bps = np.array([fixed if fixed is not None else rate_bps_by_site[plan.sites[i].id] for i in cand],
-                        dtype=float)
-    sel = select_sites(vis, costs, daily_volume_bits, rate_bps, slot, days=plan.days, mip_rel_gap=0.0)
+    rate_site = np.array([rate_bps_by_site[plan.sites[i].id] for i in cand], dtype=float)
+    sel = select_sites(cover > 0.0, costs, daily_volume_bits, rate_site[:, None] * cover, slot, days=plan.days,
+                       mip_rel_gap=0.0)
     return {"candidates": [plan.sites[i].id for i in cand], "status": sel.status,
             "chosen": [plan.sites[cand[k]].id for k in sel.site_indices],
             "cost_per_year": sel.cost_per_year, "delivered_bits_per_day": sel.delivered_bits_per_day,
             "required_bits_per_day": daily_volume_bits,
-            "rate_bps_by_site": {plan.sites[i].id: float(r) for i, r in zip(cand, rate_bps)}, "message": sel.message}
+            "rate_bps_by_site": {plan.sites[i].id: float(r) for i, r in zip(cand, rate_site)}, "message": sel.message}
 
 
 @dataclass
