@@ -34,6 +34,7 @@ LINK_SCHEMA: dict[str, list[Field]] = {
         Field("altitude_m", unit="m", required=False, low=1.0, high=1.0e12),
         Field("elevation_deg", unit="deg", low=0.0, high=90.0, low_open=True),
         Field("polarization_tilt_deg", unit="deg", required=False, default=45.0, low=0.0, high=90.0),
+        Field("bandwidth_limit_hz", unit="Hz", required=False, low=0.0, low_open=True, high=1.0e12),
         Field("catalogs", "str", required=False),
     ],
     "site": [
@@ -119,6 +120,11 @@ class LinkSpec:
     rx_clear_sky_noise_temperature_k: float | None = None
     rx_feed_loss_db: float = 0.0
     rx_gt_dbk: float | None = None
+    info_bits_per_symbol: float | None = None
+    rolloff: float | None = None
+    allocation: dict | None = None  # band_id, lower_hz, upper_hz of the catalog band holding the frequency
+    bandwidth_limit_hz: float | None = None
+    pfd_limit: dict | None = None  # the catalog's Article 21 row covering the frequency (downlink only)
     polarization_loss_db: float = 0.0
     other_losses_db: float = 0.0
     implementation_loss_db: float = 0.0
@@ -213,12 +219,17 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         if name not in data:
             raise InputError(f"missing table [{name}]", file=file, where=f"table [{name}]")
     link = _table(data, "link", file)
+    if isinstance(data.get("link"), dict) and "polarization_tilt_deg" not in data["link"]:
+        assumptions_pre = [f"polarization tilt {link['polarization_tilt_deg']:g} deg (circular polarization), the "
+                           "default of [link] polarization_tilt_deg (rain attenuation, ITU-R P.838)"]
+    else:
+        assumptions_pre = []
     site = _table(data, "site", file) if "site" in data else None
     tx = _table(data, "transmitter", file)
     rx = _table(data, "receiver", file)
     losses = _table(data, "losses", file)
     wave = _table(data, "waveform", file)
-    assumptions: list[str] = []
+    assumptions: list[str] = list(assumptions_pre)
 
     uses_catalog = any(x is not None for x in (link["band"], tx["amplifier"], tx["antenna"], rx["antenna"],
                                                 wave["modcod"]))
@@ -403,10 +414,18 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         r = _lookup(catalog.modcods, "modcod_id", wave["modcod"], file=file, where="key [waveform] modcod",
                     what="modcod").iloc[0]
         ebn0_req = float(r["ebn0_required_db"])
+        info_bits, rolloff = float(r["info_bits_per_symbol"]), float(r["rolloff"])
         assumptions.append(f"required Eb/N0 of {wave['modcod']}: {ebn0_req:.2f} dB at {r['error_target']} "
                            f"({r['source']})")
     else:
         ebn0_req = wave["ebn0_required_db"]
+        info_bits = rolloff = None
+        assumptions.append("no [waveform] modcod: occupied bandwidth and the rate the bandwidth allows are not "
+                           "available")
+    allocation, pfd_limit = _spectrum_rows(catalog, frequency_hz, direction)
+    if allocation is None:
+        assumptions.append(f"{frequency_hz / 1e9:g} GHz is in no {direction} band of the catalog: no allocation "
+                           "to check the occupied bandwidth against")
     for key, table, value in (("line_loss_db", "transmitter", tx["line_loss_db"]),
                               ("polarization_db", "losses", losses["polarization_db"]),
                               ("other_db", "losses", losses["other_db"]),
@@ -438,11 +457,35 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         range_m=link["range_m"], altitude_m=link["altitude_m"], site=site,
         polarization_tilt_deg=link["polarization_tilt_deg"],
         tx_line_loss_db=tx["line_loss_db"] or 0.0, rx_clear_sky_noise_temperature_k=clear_t,
-        rx_feed_loss_db=feed_loss_db, rx_gt_dbk=gt_only,
+        rx_feed_loss_db=feed_loss_db, rx_gt_dbk=gt_only, info_bits_per_symbol=info_bits, rolloff=rolloff,
+        allocation=allocation, bandwidth_limit_hz=link["bandwidth_limit_hz"], pfd_limit=pfd_limit,
         polarization_loss_db=losses["polarization_db"] or 0.0, other_losses_db=losses["other_db"] or 0.0,
         implementation_loss_db=wave["implementation_loss_db"] or 0.0,
         required_margin_db=wave["required_margin_db"] or 0.0, modcod_id=wave["modcod"],
         amplifier_id=amplifier_id, assumptions=assumptions, file=file)
+
+
+def _spectrum_rows(catalog: Catalog | None, frequency_hz: float, direction: str) -> tuple[dict | None, dict | None]:
+    """The catalog band (allocation) holding the frequency in this direction, and the pfd-limit row (downlink)."""
+    if catalog is None:
+        catalog = load_catalog(None)
+    b = catalog.bands
+    hit = b[(b["lower_hz"] <= frequency_hz) & (b["upper_hz"] >= frequency_hz) & (b["direction"] == direction)]
+    allocation = None
+    if not hit.empty:
+        r = hit.iloc[0]
+        allocation = {"band_id": str(r["band_id"]), "lower_hz": float(r["lower_hz"]), "upper_hz": float(r["upper_hz"]),
+                      "source": str(r["source"])}
+    pfd = None
+    if direction == "downlink":
+        lim = catalog.pfd_limits
+        row = lim[(lim["lower_hz"] <= frequency_hz) & (lim["upper_hz"] >= frequency_hz)]
+        if not row.empty:
+            r = row.iloc[0]
+            pfd = {k: float(r[k]) for k in ("pfd_low_dbw_m2", "pfd_high_dbw_m2", "low_angle_deg", "high_angle_deg",
+                                             "reference_bandwidth_hz")}
+            pfd["source"] = f"{r['source']} [{r['confidence']}]"
+    return allocation, pfd
 
 
 def load_link_file(path: Path | str) -> LinkSpec:

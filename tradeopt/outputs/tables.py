@@ -34,7 +34,7 @@ _LABELS = {
     "implementation_loss_db": "implementation loss",
     "margin_db": "MARGIN",
     "required_margin_db": "required margin",
-    "max_rate_bps": "max rate at required margin",
+    "max_rate_bps": "max rate at margin (power only)",
 }
 
 
@@ -81,6 +81,7 @@ def format_budget(result: dict, *, title: str = "") -> str:
         lines.append(f"  {_LABELS[key]:<{width}} {value:>14}  {unit}")
         if key in ("eirp_dbw", "atmospheric_loss_db", "other_losses_db", "gt_dbk", "cn0_dbhz", "ebn0_db"):
             lines.append("")
+    lines.extend(_spectrum_lines(result, width))
     status = "closes" if result["margin_db"] >= result["required_margin_db"] else "DOES NOT CLOSE"
     lines.append(f"  link {status}: margin {result['margin_db']:.2f} dB against {result['required_margin_db']:.2f}"
                  " dB required")
@@ -90,3 +91,35 @@ def format_budget(result: dict, *, title: str = "") -> str:
         lines.append("assumptions:")
         lines.extend(f"  - {a}" for a in result["assumptions"])
     return "\n".join(line.rstrip() for line in lines)
+
+
+def _spectrum_lines(result: dict, width: int) -> list[str]:
+    """The spectrum block: occupied against available bandwidth, rate limits, pfd against its limit."""
+    na = "n/a"
+
+    def mhz(v):
+        return na if v is None else f"{v / 1e6:,.4g}"
+
+    lines = ["", "  spectrum"]
+    alloc = result.get("allocation_band_id")
+    rows = [("occupied bandwidth", mhz(result.get("occupied_bandwidth_hz")), "MHz"),
+            (f"allocation{f' ({alloc})' if alloc else ''}", mhz(result.get("allocated_bandwidth_hz")), "MHz")]
+    if result.get("bandwidth_limit_hz") is not None:
+        rows.append(("tighter bandwidth limit", mhz(result["bandwidth_limit_hz"]), "MHz"))
+    occ, avail = result.get("occupied_bandwidth_hz"), result.get("available_bandwidth_hz")
+    if occ is not None and avail is not None:
+        rows.append(("bandwidth check", "fits" if occ <= avail else "EXCEEDS", f"{occ / avail:.0%} of available"))
+    rows += [("max rate within the bandwidth", mhz(result.get("max_rate_in_bandwidth_bps")), "Mbit/s"),
+             ("max rate at margin and in band", mhz(result.get("max_rate_at_margin_within_bandwidth_bps")), "Mbit/s")]
+    if result.get("pfd_dbw_m2") is not None:
+        ref = result["pfd_reference_bandwidth_hz"]
+        ref_txt = f"{ref / 1e3:g} kHz" if ref < 1e6 else f"{ref / 1e6:g} MHz"
+        rows += [(f"pfd in {ref_txt} (free space)", f"{result['pfd_dbw_m2']:.2f}", "dB(W/m^2)"),
+                 (f"Art. 21 limit at {result['elevation_deg']:.1f} deg", f"{result['pfd_limit_dbw_m2']:.2f}",
+                  "dB(W/m^2)"),
+                 ("pfd margin to the limit", f"{result['pfd_margin_db']:.2f}",
+                  "dB" + ("" if result["pfd_margin_db"] >= 0 else "  EXCEEDS THE LIMIT"))]
+    else:
+        rows.append(("pfd limit", na, "no Article 21 row in the catalog for this link"))
+    lines.extend(f"  {label:<{width}} {value:>14}  {unit}" for label, value, unit in rows)
+    return lines

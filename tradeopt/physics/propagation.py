@@ -103,7 +103,8 @@ def recommendation_versions() -> dict[str, str]:
     Returns
     -------
     versions : dict
-        e.g. ``{"P.618": "P.618-13", "P.676": "P.676-12", ...}``.
+        e.g. ``{"P.618": "P.618-13", "P.676": "P.676-12", ..., "P.618 sky noise": "P.618-14 s.3",
+        "P.525": "P.525-4"}`` (the last two: used by tradeopt's own code, not by itur).
     """
     itur = _load()
     m = itur.models
@@ -113,6 +114,10 @@ def recommendation_versions() -> dict[str, str]:
                       ("P.839", m.itu839), ("P.835", m.itu835), ("P.453", m.itu453),
                       ("P.1510", m.itu1510)]:
         out[name] = f"{name}-{int(mod.get_version())}"
+    # Used by tradeopt's own code beside itur: sky-noise increase (P.618-14 section 3, eqs. 69-70) and
+    # free-space loss (P.525-4 eq. 4).
+    out["P.618 sky noise"] = "P.618-14 s.3"
+    out["P.525"] = "P.525-4"
     return out
 
 

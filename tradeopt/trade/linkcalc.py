@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..physics import antenna, budget, noise, path, propagation
+from ..physics import antenna, budget, noise, path, propagation, spectrum, waveform
 from ..physics.validity import check_range
 
 __all__ = ["end_gain_and_pointing", "compute_link", "sky_noise_increase_at_receiver_k"]
@@ -91,6 +91,9 @@ def compute_link(spec) -> dict:
                                             efficiency=end.efficiency, beamwidth_deg=end.beamwidth_deg,
                                             pointing_error_deg=end.pointing_error_deg)
         ends[name] = (float(g), float(loss), float(bw))
+        if end.diameter_m is not None and end.beamwidth_deg is None:
+            notes.append(f"{'transmit' if name == 'tx' else 'receive'} half-power beamwidth {float(bw):.3g} deg = "
+                         f"70 lambda/D (default; give beamwidth_deg to override)")
         if end.pointing_error_deg > antenna.POINTING_LAW_LIMIT * float(bw):
             notes.append(f"{'transmit' if name == 'tx' else 'receive'} pointing error {end.pointing_error_deg:g} deg "
                          f"exceeds half the {float(bw):.3g} deg beamwidth: the 12 (theta/theta_3dB)^2 law is "
@@ -137,7 +140,72 @@ def compute_link(spec) -> dict:
         "range_m": float(range_m),
     }
     out.update({k: (float(terms[k]) if k in terms else None) for k in budget.BUDGET_TERMS})
+    out.update(spectrum_terms(spec, out, notes))
     out["tx_beamwidth_deg"] = ends["tx"][2]
     out["rx_beamwidth_deg"] = ends["rx"][2]
     out["assumptions"] = notes
+    return out
+
+
+#: Keys added by :func:`spectrum_terms` (None where not available), in reading order.
+SPECTRUM_TERMS = {
+    "occupied_bandwidth_hz": "Hz",
+    "allocated_bandwidth_hz": "Hz",
+    "bandwidth_limit_hz": "Hz",
+    "available_bandwidth_hz": "Hz",
+    "max_rate_in_bandwidth_bps": "bit/s",
+    "max_rate_at_margin_within_bandwidth_bps": "bit/s",
+    "pfd_dbw_m2": "dB(W/m^2)",
+    "pfd_limit_dbw_m2": "dB(W/m^2)",
+    "pfd_margin_db": "dB",
+    "pfd_reference_bandwidth_hz": "Hz",
+}
+
+
+def spectrum_terms(spec, terms: dict, notes: list) -> dict:
+    """Occupied bandwidth against the allocation (and any tighter limit), the rate the bandwidth allows,
+    and the power-flux density against its Article 21 limit (downlink); appends notes.
+
+    The pfd is taken from the boresight EIRP at the budget's range and elevation (conservative: no
+    transmit pointing loss), in the limit's reference bandwidth with the power spread evenly over the
+    occupied bandwidth.
+    """
+    out = dict.fromkeys(SPECTRUM_TERMS)
+    out["allocation_band_id"] = None
+    if spec.info_bits_per_symbol is not None:
+        sym = waveform.symbol_rate_baud(spec.rate_bps, spec.info_bits_per_symbol)
+        out["occupied_bandwidth_hz"] = float(waveform.occupied_bandwidth_hz(sym, spec.rolloff))
+    if spec.allocation is not None:
+        out["allocation_band_id"] = spec.allocation["band_id"]
+        out["allocated_bandwidth_hz"] = spec.allocation["upper_hz"] - spec.allocation["lower_hz"]
+    out["bandwidth_limit_hz"] = spec.bandwidth_limit_hz
+    given = [b for b in (out["allocated_bandwidth_hz"], spec.bandwidth_limit_hz) if b is not None]
+    if given:
+        out["available_bandwidth_hz"] = float(min(given))
+    if out["available_bandwidth_hz"] is not None and spec.info_bits_per_symbol is not None:
+        cap = out["available_bandwidth_hz"] * spec.info_bits_per_symbol / (1.0 + spec.rolloff)
+        out["max_rate_in_bandwidth_bps"] = float(cap)
+        out["max_rate_at_margin_within_bandwidth_bps"] = float(min(cap, terms["max_rate_bps"]))
+        if terms["max_rate_bps"] > cap:
+            notes.append(f"max rate at the required margin ({terms['max_rate_bps'] / 1e6:.4g} Mbit/s) exceeds what "
+                         f"the {out['available_bandwidth_hz'] / 1e6:.4g} MHz available allows with this modcod "
+                         f"({cap / 1e6:.4g} Mbit/s): the bandwidth limits the rate")
+        if out["occupied_bandwidth_hz"] > out["available_bandwidth_hz"]:
+            notes.append(f"occupied bandwidth {out['occupied_bandwidth_hz'] / 1e6:.4g} MHz exceeds the "
+                         f"{out['available_bandwidth_hz'] / 1e6:.4g} MHz available")
+    if spec.pfd_limit is not None:
+        lim = spec.pfd_limit
+        ref = lim["reference_bandwidth_hz"]
+        share = 0.0 if out["occupied_bandwidth_hz"] is None else float(
+            spectrum.pfd_in_reference_bandwidth_db(out["occupied_bandwidth_hz"], ref))
+        if out["occupied_bandwidth_hz"] is None:
+            notes.append("pfd: no occupied bandwidth (no modcod), so the whole power is counted in the "
+                         "reference bandwidth (conservative)")
+        pfd = float(spectrum.power_flux_density_dbw_m2(terms["eirp_dbw"], terms["range_m"])) + share
+        limit = float(spectrum.pfd_limit_dbw_m2(terms["elevation_deg"], low_dbw_m2=lim["pfd_low_dbw_m2"],
+                                                high_dbw_m2=lim["pfd_high_dbw_m2"],
+                                                low_angle_deg=lim["low_angle_deg"],
+                                                high_angle_deg=lim["high_angle_deg"]))
+        out.update(pfd_dbw_m2=pfd, pfd_limit_dbw_m2=limit, pfd_margin_db=limit - pfd, pfd_reference_bandwidth_hz=ref)
+        notes.append(f"pfd limit: {lim['source']}; boresight EIRP at the budget's range and elevation")
     return out

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..physics import antenna, noise, path, propagation, waveform
+from ..physics import antenna, noise, path, propagation, spectrum, waveform
 from ..physics.units import BOLTZMANN_DBW_PER_K_HZ
 from .linkcalc import end_gain_and_pointing, sky_noise_increase_at_receiver_k
 
@@ -184,8 +184,9 @@ def _pfd_worst(scenario, catalog, frequency_hz: float, sites):
     else:
         angles = np.unique(np.concatenate([[lowest], np.arange(np.ceil(lowest), 90.0 + 1e-9, 0.5)]))
         rng = np.asarray(path.slant_range_m(scenario.altitude_m, angles), dtype=float)
-    limit = np.interp(angles, [r.low_angle_deg, r.high_angle_deg], [r.pfd_low_dbw_m2, r.pfd_high_dbw_m2])
-    value = -10.0 * np.log10(4.0 * np.pi * rng**2) - limit
+    limit = spectrum.pfd_limit_dbw_m2(angles, low_dbw_m2=r.pfd_low_dbw_m2, high_dbw_m2=r.pfd_high_dbw_m2,
+                                      low_angle_deg=r.low_angle_deg, high_angle_deg=r.high_angle_deg)
+    value = spectrum.power_flux_density_dbw_m2(0.0, rng) - limit
     i = int(np.argmax(value))
     return float(value[i]), float(angles[i]), r
 
@@ -272,7 +273,7 @@ def build_band_space(scenario, band_id: str) -> BandSpace:
         pfd_source = ""
     else:
         ref_bw = float(pfd_row.reference_bandwidth_hz)
-        dens = 10.0 * np.log10(ref_bw / np.maximum(bw_c, ref_bw))  # min(1, ref / bw) without overflow
+        dens = spectrum.pfd_in_reference_bandwidth_db(bw_c, ref_bw)
         pfd_source = f"{pfd_row.source} [{pfd_row.confidence}]"
     eirp_am = p_dbw[None, :] + (a_gain - a_line)[:, None]
     notes.extend(f"{band_id}: {n}" for n in propagation.validity_notes(f_hz))
