@@ -135,7 +135,7 @@ def test_dish_curve_legend_omits_a_band_that_never_closes(res):
     fig = plots.dish_curve_figure(res)
     labels = legend_labels(fig)
     assert "S-DOWN" not in labels and "X-DOWN" in labels
-    assert "a larger dish stops paying" in labels
+    assert "knee: a larger dish improves the optimum by at most 2 %" in labels
     assert "S-DOWN" in fig.get_suptitle()  # said once, in words
     lines = {ln.get_label(): ln for ln in fig.axes[0].get_lines() if not ln.get_label().startswith("_")}
     drawn = [b for b in ("X-DOWN", "KA-DOWN") if b in lines]

@@ -201,7 +201,8 @@ def dish_curve_figure(res):
         handles, _ = ax.get_legend_handles_labels()
         if knee_shown:
             handles.append(Line2D([], [], linestyle="none", marker="D", markersize=7, color="white",
-                                  markeredgecolor="black", label="a larger dish stops paying"))
+                                  markeredgecolor="black",
+                                  label="knee: a larger dish improves the optimum by at most 2 %"))
         if handles:
             ax.legend(handles=handles, fontsize=8)
     if not res.curves or len(empty) == len(res.curves):

@@ -185,7 +185,19 @@ def _best_record(res, space, rec) -> dict:
             "modcod": ids["modcod_id"], "mass_kg": rec["mass_kg"], "dc_power_w": rec["dc_power_w"],
             "margin_db": rec["margin_db"], "rate_bps": res.scenario.rate_bps,
             "occupied_bandwidth_hz": rec["bandwidth_hz"], "ground_diameter_m": rec["ground_diameter_m"],
-            "limiting_site": space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])]}
+            "limiting_site": space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])],
+            "mass_breakdown_kg": mass_breakdown_kg(space, rec)}
+
+
+def mass_breakdown_kg(space, rec) -> dict:
+    """Comm mass of a design split into antenna, amplifier and power system (generation and storage) [kg].
+
+    The parts are the catalog masses and the rest of the search's own total (``power_mass_kg_per_w`` x DC
+    power), so they add up to ``mass_kg`` exactly.
+    """
+    antenna = float(space.mass_a[rec["a"]])
+    amplifier = float(space.amplifiers["mass_kg"].iloc[rec["m"]])
+    return {"antenna": antenna, "amplifier": amplifier, "power_system": rec["mass_kg"] - antenna - amplifier}
 
 
 def summary_text(res, results_dir: str) -> str:
@@ -200,11 +212,17 @@ def summary_text(res, results_dir: str) -> str:
         lines.append(f"  NOT FEASIBLE: {s['infeasible_reason']}; the link design below closes, but the mission needs "
                      "more storage or more frequent contacts")
     if b is not None:
-        lines.append(f"  BEST: {b['band_id']}  {b['ground_antenna']} + {b['spacecraft_antenna']} + {b['amplifier']} + "
-                     f"{b['modcod']}")
-        lines.append(f"        margin {b['margin_db']:.2f} dB (limiting site {b['limiting_site']}), comm mass "
-                     f"{b['mass_kg']:.2f} kg, DC power {b['dc_power_w']:.1f} W, occupied bandwidth "
-                     f"{b['occupied_bandwidth_hz'] / 1e6:.4g} MHz")
+        other = "DC power" if res.objective == "mass" else "comm mass"
+        lines.append(f"  BEST: {b['band_id']}  {b['ground_antenna']} ({b['ground_diameter_m']:g} m dish) + "
+                     f"{b['spacecraft_antenna']} + {b['amplifier']} + {b['modcod']}")
+        lines.append(f"        margin {b['margin_db']:.2f} dB (limiting site {b['limiting_site']}), DC power "
+                     f"{b['dc_power_w']:.1f} W, occupied bandwidth {b['occupied_bandwidth_hz'] / 1e6:.4g} MHz")
+        mb = b["mass_breakdown_kg"]
+        lines.append(f"        comm mass {b['mass_kg']:.2f} kg = antenna {mb['antenna']:.2f} + amplifier "
+                     f"{mb['amplifier']:.2f} + power system {mb['power_system']:.2f} kg")
+        lines.append(f"        chosen by: least {'comm mass' if res.objective == 'mass' else 'DC power'}, then least "
+                     f"{other}, then the smallest ground dish, then the narrowest occupied bandwidth, then the "
+                     "largest margin")
     else:
         lines.append("  NO DESIGN IS FEASIBLE. Closest designs and what each misses:")
         for r in s["closest"]:
@@ -234,9 +252,11 @@ def summary_text(res, results_dir: str) -> str:
             if curve["knee_diameter_m"] >= end:
                 lines.append(f"  {band_id}: the optimum still improves up to the largest dish on the curve ({end:g} m)")
             else:
-                lines.append(f"  {band_id}: a ground dish beyond {curve['knee_diameter_m']:g} m stops paying "
-                             f"(within {100 * KNEE_FRACTION:g} % of the best {res.objective} on the curve, which "
-                             f"ends at {end:g} m)")
+                unit = "kg" if res.objective == "mass" else "W"
+                what = "comm mass" if res.objective == "mass" else "DC power"
+                lines.append(f"  {band_id}: ground dishes larger than {curve['knee_diameter_m']:g} m improve the least "
+                             f"{what} by at most {100 * KNEE_FRACTION:g} % ({curve['knee_value']:.3g} {unit} at "
+                             f"{curve['knee_diameter_m']:g} m; the curve ends at {end:g} m)")
     m = s["mission"]
     continuous = m.get("visibility") == "continuous"
     if m.get("rate_source") in ("demand", "daily_volume_bits"):
@@ -256,15 +276,26 @@ def summary_text(res, results_dir: str) -> str:
                          f"({st['gap_window_basis']}), {st['storage_bits'] / 1e9:.4g} Gbit available")
     if "volume" in m:
         v = m["volume"]
-        lines.append(f"  best design delivers {v['fixed_rate_bits_per_day'] / 1e9:.4g} Gbit/day at a fixed rate; "
-                     f"best fixed rate (closing from {v['best_fixed_threshold_deg']:g} deg) "
-                     f"{v['best_fixed_bits_per_day'] / 1e9:.4g}; variable rate (ACM) "
-                     f"{v['variable_rate_bits_per_day'] / 1e9:.4g} Gbit/day (+{v['variable_gain_percent']:.1f} %)")
+        lines.append(f"  delivered volume, one downlink at a time ({v['union_contact_s_per_day'] / 60:.1f} min/day "
+                     "when a required site sees the spacecraft):")
+        lines.append(f"    best design at its fixed rate {v['rate_bps'] / 1e6:.4g} Mbit/s: "
+                     f"{v['fixed_rate_bits_per_day'] / 1e9:.4g} Gbit/day")
+        lowest_mask = min(x.min_elevation_deg for x in res.scenario.sites if x.required)
+        where = ("at every required site's mask" if v["best_fixed_threshold_deg"] <= lowest_mask else
+                 f"at every required site from {v['best_fixed_threshold_deg']:g} deg (or its mask, if higher)")
+        lines.append(f"    best fixed rate, {v['best_fixed_rate_bps'] / 1e6:.4g} Mbit/s with {v['best_fixed_modcod_id']} "
+                     f"closing {where}: {v['best_fixed_bits_per_day'] / 1e9:.4g} Gbit/day")
+        lines.append(f"    variable rate (ACM, best MODCOD per site and elevation bin): "
+                     f"{v['variable_rate_bits_per_day'] / 1e9:.4g} Gbit/day "
+                     f"({v['variable_gain_percent']:+.1f} % relative to the best fixed rate)")
+        shares = [f"{r['site_id']} {r['assigned_s_per_day'] / 60:.1f} min/day" for r in v["sites"] if r["required"]]
+        lines.append(f"    shared time assigned to the site with the highest rate: {', '.join(shares)}")
     if "network" in m:
         n = m["network"]
         if n["status"] == "optimal":
             lines.append(f"  cheapest ground network for the volume: {', '.join(n['chosen'])} "
-                         f"({n['cost_per_year']:,.0f} per year, {n['delivered_bits_per_day'] / 1e9:.4g} Gbit/day)")
+                         f"({n['cost_per_year']:,.0f} cost units per year, as given in cost_per_year; "
+                         f"{n['delivered_bits_per_day'] / 1e9:.4g} Gbit/day)")
         else:
             lines.append(f"  ground network: {n['status']}: {n['message']}")
     lines.extend(f"  {n}" for n in sorted(set(res.notes)) if n.startswith(("WARNING", "NOTE")))
@@ -397,7 +428,8 @@ def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str |
     if res.attenuation:
         files["attenuation.csv"] = _csv(pd.DataFrame(res.attenuation), vline)
     if res.volume:
-        vrows = [{"site_id": r["site_id"], "contact_s_per_day": r["contact_s_per_day"],
+        vrows = [{"site_id": r["site_id"], "required": r["required"], "contact_s_per_day": r["contact_s_per_day"],
+                  "assigned_s_per_day": r["assigned_s_per_day"], "closing_rate_bps": r["closing_rate_bps"],
                   "fixed_rate_bits_per_day": r["fixed_rate_bits_per_day"],
                   "variable_rate_bits_per_day": r["variable_rate_bits_per_day"]} for r in res.volume["sites"]]
         files["volume.csv"] = _csv(pd.DataFrame(vrows), vline)

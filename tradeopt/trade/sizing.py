@@ -18,7 +18,8 @@ from .space import site_terms_for_apertures
 
 __all__ = ["KNEE_FRACTION", "DishModel", "dish_model", "min_dish_diameter_m", "least_rf_power_w", "dish_curve"]
 
-#: A larger dish "stops paying" once the optimum is within this fraction of its best value on the grid.
+#: The knee of the dish-size curve: the smallest dish at which the optimum is within this fraction of its
+#: best value on the grid (a larger dish improves it by at most this fraction).
 KNEE_FRACTION = 0.02
 #: Smallest ground dish on the curve [m] (a design choice, the floor of ``dish_curve_max_diameter_m``):
 #: smaller grid points are dropped unless the whole grid lies below it.
@@ -47,6 +48,17 @@ class DishModel:
                                                efficiency=self.efficiency,
                                                pointing_error_deg=self.pointing_error_deg)
         self.x_d = np.asarray(gain) - np.asarray(point) + st.path_and_noise_db.min(axis=1)
+        self.notes = []
+        for side, beyond, j in (("smaller", self.diameters_m < cat_d[0] - 1e-9, 0),
+                                ("larger", self.diameters_m > cat_d[-1] + 1e-9, -1)):
+            if beyond.any():
+                r = g.iloc[j]
+                self.notes.append(
+                    f"NOTE: {space.band_id} dish-size curve: dishes {side} than the catalog's "
+                    f"{'smallest' if j == 0 else 'largest'} ({float(r['diameter_m']):g} m) assume its terminal: "
+                    f"efficiency {float(r['efficiency']):g}, feed loss {float(r['feed_loss_db']):g} dB, LNA "
+                    f"{float(r['lna_noise_temperature_k']):g} K, antenna noise {float(r['antenna_noise_temperature_k']):g} "
+                    f"K, pointing error {float(r['pointing_error_deg']):g} deg")
 
     def x_at(self, diameter_m):
         """X at any diameter inside the grid (linear interpolation of the grid values) [dB]."""
@@ -119,14 +131,16 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
     """Optimum spacecraft mass and DC power vs ground dish diameter for one band.
 
     At each diameter every (spacecraft antenna, amplifier, coded modulation) is
-    checked against all constraints; the optimum is the feasible one with the
-    least objective (ties to the larger margin).
+    checked against all constraints; the optimum is the feasible one first in the
+    order of the best design (objective, other resource, narrower occupied
+    bandwidth, larger margin).
 
     Returns
     -------
     curve : dict of ndarray
         ``diameter_m``, ``best_mass_kg``, ``best_dc_power_w``, ``margin_db``, ``a``, ``m``, ``c``
-        (indices; -1 where nothing is feasible), and ``knee_diameter_m`` (float or None).
+        (indices; -1 where nothing is feasible), ``knee_diameter_m`` and ``knee_value`` (the
+        objective there, [kg] or [W]; both None when nothing closes).
     """
     n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
     rest = space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :] + space.const_db
@@ -143,13 +157,17 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
     for k in ("a", "m", "c"):
         out[k] = np.full(nd, -1, dtype=int)
     flat_obj = obj.reshape(-1)
+    flat_other = (dc if objective == "mass" else mass).reshape(-1)
+    flat_bw = np.broadcast_to(space.bandwidth_c_hz[None, None, :], rest.shape).reshape(-1)
     for i in range(nd):
         margin = (model.x_d[i] + rest).reshape(-1)
         feas = fixed_ok.reshape(-1) & (margin >= limits.required_margin_db - 1e-12)
         if not feas.any():
             continue
         fi = np.flatnonzero(feas)
-        j = fi[np.lexsort((-margin[fi], np.round(flat_obj[fi], 9)))[0]]
+        # the order of the best design: objective, other resource, narrower bandwidth, larger margin
+        j = fi[np.lexsort((-np.round(margin[fi], 9), flat_bw[fi], np.round(flat_other[fi], 9),
+                           np.round(flat_obj[fi], 9)))[0]]
         a, m, c = np.unravel_index(j, (n_a, n_m, n_c))
         out["best_mass_kg"][i] = mass.reshape(-1)[j]
         out["best_dc_power_w"][i] = dc.reshape(-1)[j]
@@ -163,4 +181,5 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
         hit = np.flatnonzero(np.isfinite(best) & (best <= floor * (1.0 + KNEE_FRACTION)))
         knee = float(model.diameters_m[hit[0]])
     out["knee_diameter_m"] = knee
+    out["knee_value"] = None if knee is None else float(best[hit[0]])
     return out
