@@ -307,3 +307,20 @@ def test_every_csv_float_has_the_documented_precision(runs):
                     continue
                 mantissa = cell.lower().lstrip("+-").split("e")[0].replace(".", "").lstrip("0")
                 assert len(mantissa) <= FLOAT_SIGNIFICANT_DIGITS, (path.name, cell)
+
+
+def test_summary_states_the_order_and_the_mass_breakdown(runs):
+    # Bug caught: a best design whose choice a reviewer cannot reconstruct (order unstated), or a comm
+    # mass whose parts do not add up (antenna + amplifier + power system, catalog masses).
+    text = (runs.run1 / "summary.txt").read_text(encoding="utf-8")
+    assert ("chosen by: least comm mass, then least DC power, then the smallest ground dish, then the narrowest "
+            "occupied bandwidth, then the largest margin") in text
+    assert "stops paying" not in text
+    best = _best_json(runs)["best"]
+    parts = best["mass_breakdown_kg"]
+    assert parts["antenna"] + parts["amplifier"] + parts["power_system"] == pytest.approx(best["mass_kg"], rel=1e-9)
+    craft = pd.read_csv(Path(tradeopt.__file__).resolve().parents[1] / "catalogs" / "spacecraft_antennas.csv")
+    amps = pd.read_csv(Path(tradeopt.__file__).resolve().parents[1] / "catalogs" / "amplifiers.csv")
+    assert parts["antenna"] == craft.set_index("spacecraft_antenna_id").loc[best["spacecraft_antenna"], "mass_kg"]
+    assert parts["amplifier"] == amps.set_index("amplifier_id").loc[best["amplifier"], "mass_kg"]
+    assert parts["power_system"] > 0
