@@ -62,7 +62,7 @@ import pandas as pd
 from sgp4.api import SGP4_ERRORS, WGS72, Satrec
 from sgp4.exporter import export_tle as _sgp4_export_tle
 
-from ..physics.validity import ModelRangeError, check_range
+from ...physics.validity import ModelRangeError, check_range
 
 __all__ = [
     "WGS84_EQUATORIAL_RADIUS_M",
