@@ -111,8 +111,32 @@ _KEYS = {
 
 
 def default_catalog_dir() -> Path:
-    """The catalogs bundled with tradeopt (the project's ``catalogs/`` folder)."""
-    return Path(__file__).resolve().parents[2] / "catalogs"
+    """The catalogs bundled with tradeopt: package data ``tradeopt/data/catalogs/``.
+
+    Found through :mod:`importlib.resources`, so an installed wheel uses its own copy; in a
+    source checkout the top-level ``catalogs/`` is a symbolic link to the same folder.
+
+    Returns
+    -------
+    directory : Path
+        The folder of the bundled catalog CSV files.
+
+    Raises
+    ------
+    RuntimeError
+        tradeopt is installed in a form that is not a folder on disk (for instance a zip file).
+
+    References
+    ----------
+    Python documentation, :mod:`importlib.resources` (``files``).
+    """
+    from importlib import resources  # noqa: PLC0415
+
+    folder = resources.files("tradeopt.data").joinpath("catalogs")
+    if not isinstance(folder, Path):  # pragma: no cover - only for an installation that is not on disk
+        raise RuntimeError(f"the bundled catalogs are not a folder on disk ({folder!r}); install tradeopt "
+                           "from a wheel or a source folder, or give the catalog folder explicitly")
+    return folder
 
 
 def read_catalog_csv(path: Path, name: str):
