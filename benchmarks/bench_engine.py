@@ -156,6 +156,7 @@ def _numpy_limit_rate(n: int) -> float:
 
 def bench_search() -> dict:
     """Search rate, loop rate, numpy limit and peak memory for 10^7 designs."""
+    from tradeopt.plan.mission import plan_mission
     from tradeopt.trade.evaluate import Limits, search
     from tradeopt.trade.space import build_band_space
 
@@ -164,7 +165,7 @@ def bench_search() -> dict:
         folder = Path(tmp)
         _synthetic_catalog(folder, 20, 25, 50, 40)  # 1,000,000 designs
         sc = _scenario(folder)
-        space = build_band_space(sc, "X-DOWN")
+        space = build_band_space(sc, "X-DOWN", plan_mission(sc))
         limits = Limits(required_margin_db=3.0, max_comm_mass_kg=8.0, max_dc_power_w=100.0)
         search([space], limits, keep_designs=False)  # warm
         best = np.inf
@@ -186,7 +187,7 @@ def bench_search() -> dict:
         folder = Path(tmp)
         _synthetic_catalog(folder, 40, 50, 50, 100)  # 10,000,000 designs
         sc = _scenario(folder)
-        space = build_band_space(sc, "X-DOWN")
+        space = build_band_space(sc, "X-DOWN", plan_mission(sc))
         tracemalloc.start()
         t0 = time.perf_counter()
         res = search([space], limits, keep_designs=False)

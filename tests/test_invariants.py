@@ -24,6 +24,7 @@ from tradeopt.inputs.linkfile import link_spec_from_dict, read_toml
 from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.mission import network, volume
 from tradeopt.physics import antenna, budget, noise, path, propagation, waveform
+from tradeopt.plan.mission import plan_mission
 from tradeopt.trade.evaluate import Limits, evaluate_block, search
 from tradeopt.trade.linkcalc import compute_link
 from tradeopt.trade.space import build_band_space
@@ -516,7 +517,8 @@ def _run_trade(case: dict):
         _write_csv(folder / "amplifiers.csv", case["amps"], _header("amplifiers.csv"))
         catalog = load_catalog(folder)
         scenario = scenario_from_dict(case["scenario"], file="invariants.toml", catalog=catalog)
-        spaces = [build_band_space(scenario, b) for b in scenario.band_ids]
+        plan = plan_mission(scenario)
+        spaces = [build_band_space(scenario, b, plan) for b in scenario.band_ids]
     limits = Limits(required_margin_db=scenario.required_margin_db, max_comm_mass_kg=scenario.max_comm_mass_kg,
                     max_dc_power_w=scenario.max_dc_power_w)
     res = search(spaces, limits, objective=scenario.objective, keep_designs=False)

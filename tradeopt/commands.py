@@ -55,7 +55,7 @@ def run_contacts(*, scenario_path=None, days=None, as_json=False) -> int:
     """``tradeopt contacts``: passes, gaps and elevation histograms per site."""
     from .inputs.scenario import load_scenario
     from .outputs.provenance import clean_for_json, versions
-    from .trade.schedule import contact_plan
+    from .plan.contacts import contact_plan
 
     scenario = load_scenario(scenario_path)
     plan = contact_plan(scenario, days=days)
@@ -107,7 +107,7 @@ def run_demand(*, scenario_path=None, as_json=False) -> int:
     """``tradeopt demand``: from the instruments to the information volume per day."""
     from .inputs.scenario import load_scenario
     from .outputs.provenance import clean_for_json, versions
-    from .trade.schedule import demand_plan
+    from .plan.demand import demand_plan
 
     scenario = load_scenario(scenario_path)
     dplan = demand_plan(scenario)

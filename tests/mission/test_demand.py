@@ -332,12 +332,12 @@ def test_arq_stop_and_wait_with_a_window_of_one_frame_is_accepted():
 
 def test_settings_unused_under_a_daily_volume_give_a_note():
     # Catches: [[payloads]] and [arq] silently ignored when [requirement] daily_volume_bits is given.
-    from tradeopt.trade.schedule import prepare
+    from tradeopt.plan.mission import plan_mission
 
     sc, _ = _volume_scenario("daily_volume_bits = 1e11", 'scheme = "go-back-n"\nframe_error_rate = 0.01')
     notes = [n for n in sc.notes if "[[payloads]]" in n]
     assert len(notes) == 1 and "[arq]" in notes[0] and "daily_volume_bits" in notes[0]
-    assert notes[0] in prepare(sc).notes  # reaches the trade's notes (summary and best.json)
+    assert notes[0] in plan_mission(sc).messages  # reaches the trade's notes (summary and best.json)
     # With the volume from the payloads, they are used: no such note.
     used, _ = _volume_scenario("volume_from_demand = true", 'scheme = "go-back-n"\nframe_error_rate = 0.01')
     assert not any("[[payloads]]" in n for n in used.notes)

@@ -15,7 +15,8 @@ from tradeopt.cli import main
 from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.mission import orbit as orb
 from tradeopt.outputs.report import build_files, summary_text
-from tradeopt.trade import schedule
+from tradeopt.plan import contacts as plan_contacts
+from tradeopt.plan import mission as plan_mission
 from tradeopt.trade.optimize import optimize
 
 GEO_TOML = """\
@@ -138,7 +139,7 @@ def test_geostationary_margin_csv_is_written_at_the_real_elevation(geo, tmp_path
 def test_geostationary_attenuation_is_at_the_real_elevation(geo):
     # Catches: attenuation rows computed at the mask (site.min_elevation_deg) for a slot that does not move.
     for site in geo.scenario.sites:
-        el = geo.scenario.site_geometry[site.id][0]
+        el = geo.mission.geometry.sites[site.id].elevation_deg
         rows = [r for r in geo.attenuation if r["site_id"] == site.id]
         assert rows and all(r["elevation_deg"] == pytest.approx(el) for r in rows)
         assert el != pytest.approx(site.min_elevation_deg)
@@ -208,7 +209,7 @@ def test_tle_far_from_epoch_warns_in_summary_and_json_notes(tmp_path):
 def test_tle_near_its_epoch_gives_no_warning(tmp_path, capsys):
     # Catches: a warning that fires whatever the distance (a test of the threshold's other side).
     sc = _scenario(TLE_TOML.format(start="2027-01-03T00:00:00"))
-    assert schedule.contact_plan(sc).notes == []
+    assert plan_contacts.contact_plan(sc).notes == []
     # ... and the contacts command shows it when the window is far from the epoch.
     path = tmp_path / "tle.toml"
     path.write_text(TLE_TOML.format(start="2027-02-15T00:00:00"))
@@ -226,19 +227,19 @@ def test_default_storage_window_is_at_least_30_days_and_covers_the_ground_track_
     del data["contacts"]["days"]  # the default contact window, 7 days
     sc = scenario_from_dict(data, file="<test>")
     assert sc.contacts["days"] == 7.0
-    ctx = schedule.prepare(sc)
+    ctx = plan_mission.plan_mission(sc)
     st = ctx.storage
-    assert st["gap_window_days"] >= orb.GAP_WINDOW_MIN_DAYS
-    sat = schedule.satrec_for(sc)
-    assert st["gap_window_days"] >= orb.ground_track_cycle_days(sat)
-    assert "30 days" in st["gap_window_basis"] and "ground-track cycle" in st["gap_window_basis"]
+    assert st.gap_window_days >= orb.GAP_WINDOW_MIN_DAYS
+    sat = plan_contacts.satrec_for(sc)
+    assert st.gap_window_days >= orb.ground_track_cycle_days(sat)
+    assert "30 days" in st.gap_window_basis and "ground-track cycle" in st.gap_window_basis
     # The gap is the one of the stated window (the 7-day-vs-year comparison is in tests/mission/test_orbit.py).
     site = sc.sites[0]
-    gap = orb.network_worst_gap_s(sat, ctx.plan.start_utc, st["gap_window_days"],
+    gap = orb.network_worst_gap_s(sat, ctx.contacts.start_utc, st.gap_window_days,
                                   {"latitude_deg": [site.latitude_deg], "longitude_deg": [site.longitude_deg],
                                    "altitude_m": [site.altitude_m]}, [site.min_elevation_deg],
-                                  step_s=st["gap_window_step_s"])
-    assert st["worst_gap_s"] == pytest.approx(gap, abs=1e-6)
+                                  step_s=st.gap_window_step_s)
+    assert st.worst_gap_s == pytest.approx(gap, abs=1e-6)
 
 
 def test_a_longer_user_window_is_kept():

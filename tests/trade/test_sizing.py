@@ -136,7 +136,7 @@ def _margins_with_power(scenario, space, ground_id, craft_id, modcod_id, power_w
                 "transmitter": {"antenna": craft_id, "power_w": power_w},
                 "receiver": {"antenna": ground_id},
                 "losses": {"polarization_db": scenario.polarization_loss_db, "other_db": scenario.other_losses_db},
-                "waveform": {"rate_bps": scenario.rate_bps, "modcod": modcod_id,
+                "waveform": {"rate_bps": space.rate_bps, "modcod": modcod_id,
                              "implementation_loss_db": scenario.implementation_loss_db,
                              "required_margin_db": scenario.required_margin_db}}
         spec = link_spec_from_dict(link, file="least-power", catalog=scenario.catalog)

@@ -100,7 +100,7 @@ def test_network_uses_the_design_closing_rate_at_each_site(leo_high_masks):
     net = leo_high_masks.mission.network
     assert net is not None
     closing = {s["site_id"]: s["closing_rate_bps"] for s in leo_high_masks.volume["sites"]}
-    for site_id, r in net["rate_bps_by_site"].items():
+    for site_id, r in net.rate_bps_by_site.items():
         assert r == pytest.approx(closing[site_id], rel=1e-12)
     # the design closes at its rate R at every required site's mask
     assert min(closing.values()) >= leo_high_masks.volume["rate_bps"] * (1 - 1e-9)
@@ -113,5 +113,5 @@ def test_network_rate_for_arq_timing_does_not_drive_the_network_choice():
     data.setdefault("network", {})["rate_bps"] = 1.0e9
     res = _run(data)
     closing = {s["site_id"]: s["closing_rate_bps"] for s in res.volume["sites"]}
-    assert res.mission.network["rate_bps_by_site"] == pytest.approx(closing, rel=1e-12)
+    assert res.mission.network.rate_bps_by_site == pytest.approx(closing, rel=1e-12)
     assert any("[network] rate_bps sets only the ARQ frame time" in n for n in res.notes)

@@ -149,9 +149,15 @@ class Site:
     cost_per_year: float | None = None
 
 
-@dataclass
+@dataclass(frozen=True)
 class Scenario:
-    """A validated scenario, with the catalog it uses (already filtered by its options)."""
+    """A validated scenario, with the catalog it uses (already filtered by its options).
+
+    Frozen: what is planned from it (the required rate, the geometry of each site's link) lives in
+    :class:`tradeopt.plan.mission.MissionPlan`, never in the scenario. ``altitude_m`` and ``range_m``
+    are the orbit as given ([m]; ``altitude_m`` is None for a TLE, a geostationary slot or a fixed
+    range); the information rate is ``requirement["rate_bps"]`` when given [bit/s].
+    """
 
     name: str
     description: str
@@ -162,7 +168,6 @@ class Scenario:
     band_ids: list
     sites: list
     catalog: Catalog
-    rate_bps: float | None = None
     altitude_m: float | None = None
     range_m: float | None = None
     implementation_loss_db: float = 0.0
@@ -184,7 +189,6 @@ class Scenario:
     arq: dict = field(default_factory=dict)
     coding: dict = field(default_factory=dict)
     network: dict = field(default_factory=dict)
-    site_geometry: dict = field(default_factory=dict)  # site id -> (elevation_deg, range_m) from propagation
     notes: list = field(default_factory=list)  # "NOTE: ..." lines: settings the requirement or orbit makes unused
     base_dir: Path | None = None
     file: str = DEFAULT_SCENARIO_NAME
@@ -384,7 +388,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     return Scenario(
         name=sc["name"], description=sc["description"], objective=sc["objective"], direction=sc["direction"],
         availability_percent=sc["availability_percent"], required_margin_db=sc["required_margin_db"],
-        band_ids=list(sc["bands"]), sites=sites, catalog=catalog, rate_bps=req["rate_bps"],
+        band_ids=list(sc["bands"]), sites=sites, catalog=catalog,
         altitude_m=_altitude_of(orbit), range_m=orbit["range_m"],
         implementation_loss_db=link["implementation_loss_db"], polarization_loss_db=link["polarization_loss_db"],
         other_losses_db=link["other_losses_db"], polarization_tilt_deg=link["polarization_tilt_deg"],

@@ -1,7 +1,7 @@
 """JSON records of ``tradeopt contacts`` and ``tradeopt demand``; the first is also the results folder's
 ``contacts.json``.
 
-Plain dicts built from what the trade layer computed; no physics, no printing.
+Plain dicts built from what the planning layer computed (:mod:`tradeopt.plan`); no physics, no printing.
 """
 from __future__ import annotations
 

@@ -8,6 +8,7 @@ no design closes).
 """
 from __future__ import annotations
 
+import dataclasses
 import io
 import json
 
@@ -161,20 +162,20 @@ def summary_dict(res, results_dir: str) -> dict:
 def mission_record(res) -> dict:
     """Rate source, daily volume, contact time, storage check, volume gains and network choice."""
     m = res.mission
-    out = {"rate_bps": res.scenario.rate_bps, "rate_source": getattr(m, "rate_source", "given")}
+    out = {"rate_bps": getattr(m, "rate_bps", None), "rate_source": getattr(m, "rate_source", "given")}
     if m is None:
         return out
     if m.daily_volume_bits is not None:
         out["daily_volume_bits"] = m.daily_volume_bits
         out["contact_s_per_day"] = m.contact_s_per_day
     if m.storage is not None:
-        out["storage"] = m.storage
+        out["storage"] = dataclasses.asdict(m.storage)
     if res.volume:
         out["volume"] = {k: v for k, v in res.volume.items() if k != "bin_edges_deg"}
     if m.network is not None:
-        out["network"] = m.network
-    if m.plan is not None:
-        out["visibility"] = "continuous" if m.plan.kind == "geostationary" else "passes"
+        out["network"] = dataclasses.asdict(m.network)
+    if m.contacts is not None:
+        out["visibility"] = "continuous" if m.contacts.kind == "geostationary" else "passes"
     return out
 
 
@@ -183,7 +184,7 @@ def _best_record(res, space, rec) -> dict:
     return {"band": space.band, "band_id": space.band_id, "ground_antenna": ids["ground_antenna_id"],
             "spacecraft_antenna": ids["spacecraft_antenna_id"], "amplifier": ids["amplifier_id"],
             "modcod": ids["modcod_id"], "mass_kg": rec["mass_kg"], "dc_power_w": rec["dc_power_w"],
-            "margin_db": rec["margin_db"], "rate_bps": res.scenario.rate_bps,
+            "margin_db": rec["margin_db"], "rate_bps": space.rate_bps,
             "occupied_bandwidth_hz": rec["bandwidth_hz"], "ground_diameter_m": rec["ground_diameter_m"],
             "limiting_site": space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])],
             "mass_breakdown_kg": mass_breakdown_kg(space, rec)}
@@ -205,7 +206,7 @@ def summary_text(res, results_dir: str) -> str:
     s = summary_dict(res, results_dir)
     lines = [f"tradeopt optimize: {res.scenario.name} (objective: minimum {'comm mass' if res.objective == 'mass' else 'DC power'},"
              f" availability {res.scenario.availability_percent:g} %, required margin {res.scenario.required_margin_db:g} dB,"
-             f" {res.scenario.rate_bps / 1e6:g} Mbit/s)",
+             f" {res.mission.rate_bps / 1e6:g} Mbit/s)",
              f"  designs evaluated: {s['designs_evaluated']:,}   feasible: {s['designs_feasible']:,}"]
     b = s["best"]
     if s.get("infeasible_reason"):
@@ -433,10 +434,10 @@ def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str |
                   "fixed_rate_bits_per_day": r["fixed_rate_bits_per_day"],
                   "variable_rate_bits_per_day": r["variable_rate_bits_per_day"]} for r in res.volume["sites"]]
         files["volume.csv"] = _csv(pd.DataFrame(vrows), vline)
-    if res.mission is not None and res.mission.plan is not None:
+    if res.mission is not None and res.mission.contacts is not None:
         from .records import contacts_record  # noqa: PLC0415
 
-        files["contacts.json"] = json.dumps(clean_for_json(contacts_record(res.scenario, res.mission.plan)),
+        files["contacts.json"] = json.dumps(clean_for_json(contacts_record(res.scenario, res.mission.contacts)),
                                             indent=2, sort_keys=True) + "\n"
     if res.mission is not None and res.mission.demand is not None:
         files["demand.csv"] = _csv(res.mission.demand.result.table, vline)

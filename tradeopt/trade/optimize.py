@@ -14,7 +14,7 @@ from ..physics import path, propagation
 from .evaluate import Limits, SearchResult, search
 from .linkcalc import compute_link
 from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_m
-from .schedule import network_choice
+from ..plan.mission import plan_mission, with_network_choice
 from .space import BandSpace, build_band_space, site_geometry, site_terms_for_apertures
 
 __all__ = ["TradeResult", "optimize", "DESIGNS_CSV_MAX", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
@@ -44,14 +44,14 @@ class TradeResult:
     attenuation: list = field(default_factory=list)  # rows for attenuation vs availability
     elevation_margin: list = field(default_factory=list)  # rows for margin vs elevation
     notes: list = field(default_factory=list)
-    mission: object = None  # tradeopt.trade.schedule.MissionContext
+    mission: object = None  # tradeopt.plan.mission.MissionPlan
     volume: dict = field(default_factory=dict)  # fixed- vs variable-rate volume of the best design
 
     @property
     def feasible(self) -> bool:
         """Whether a design keeps every constraint (and the onboard storage holds the worst gap)."""
         storage = getattr(self.mission, "storage", None)
-        return self.search.best is not None and (storage is None or storage["fits"])
+        return self.search.best is not None and (storage is None or storage.fits)
 
     def space(self, band_id: str) -> BandSpace:
         """The design space of a band."""
@@ -115,12 +115,13 @@ def design_link_dict(scenario, space: BandSpace, rec: dict, site) -> dict:
     link = {"direction": scenario.direction, "band": space.band_id,
             "availability_percent": scenario.availability_percent, "elevation_deg": site.min_elevation_deg,
             "polarization_tilt_deg": scenario.polarization_tilt_deg}
-    if site.id in scenario.site_geometry:
-        link["elevation_deg"], link["range_m"] = scenario.site_geometry[site.id]
-    elif scenario.range_m is not None:
-        link["range_m"] = scenario.range_m
+    geometry = space.geometry  # the plan's, as the space was built
+    if site.id in geometry.sites:
+        link["elevation_deg"], link["range_m"] = geometry.sites[site.id]
+    elif geometry.range_m is not None:
+        link["range_m"] = geometry.range_m
     else:
-        link["altitude_m"] = scenario.altitude_m
+        link["altitude_m"] = geometry.altitude_m
     from ..inputs.catalog import default_catalog_dir  # noqa: PLC0415
 
     if scenario.catalog.directory.resolve() != default_catalog_dir().resolve():
@@ -132,7 +133,7 @@ def design_link_dict(scenario, space: BandSpace, rec: dict, site) -> dict:
         "transmitter": {"amplifier": ids["amplifier_id"], "antenna": ids["spacecraft_antenna_id"]},
         "receiver": {"antenna": ids["ground_antenna_id"]},
         "losses": {"polarization_db": scenario.polarization_loss_db, "other_db": scenario.other_losses_db},
-        "waveform": {"rate_bps": scenario.rate_bps, "modcod": ids["modcod_id"],
+        "waveform": {"rate_bps": space.rate_bps, "modcod": ids["modcod_id"],
                      "implementation_loss_db": scenario.implementation_loss_db,
                      "required_margin_db": scenario.required_margin_db},
     }
@@ -186,7 +187,7 @@ def _evidence(scenario, res: TradeResult) -> None:
         row = space.ground.iloc[g]
         for site in scenario.sites:
             p = 100.0 - AVAILABILITY_GRID_PERCENT
-            el_site = float(scenario.site_geometry.get(site.id, (site.min_elevation_deg,))[0])
+            el_site = float(space.geometry.sites.get(site.id, (site.min_elevation_deg,))[0])
             t = propagation.slant_path_attenuation(
                 latitude_deg=site.latitude_deg, longitude_deg=site.longitude_deg, altitude_m=site.altitude_m,
                 frequency_hz=space.frequency_hz, elevation_deg=el_site, percent_of_year=p,
@@ -207,13 +208,14 @@ def _evidence(scenario, res: TradeResult) -> None:
         for site in [s for s in scenario.sites if s.required]:
             # The first point is the optimizer's own geometry at the mask (propagated range when the
             # scenario has it), so the curve starts at the margin the search constrained.
-            el_mask, rng_mask = site_geometry(scenario, [site])
+            el_mask, rng_mask = site_geometry(space.geometry, [site])
             if fixed:  # the slot's real elevation and range
                 el, rng = el_mask, rng_mask
             else:
                 above = ELEVATION_GRID_DEG[ELEVATION_GRID_DEG > el_mask[0] + 1e-9]
-                rng_above = (np.full(above.shape, float(scenario.range_m)) if scenario.range_m is not None
-                             else np.asarray(path.slant_range_m(scenario.altitude_m, above), dtype=float))
+                geo = space.geometry
+                rng_above = (np.full(above.shape, float(geo.range_m)) if geo.range_m is not None
+                             else np.asarray(path.slant_range_m(geo.altitude_m, above), dtype=float))
                 el = np.concatenate([el_mask, above])
                 rng = np.concatenate([rng_mask, rng_above])
             st = site_terms_for_apertures(scenario, [site] * len(el), space.frequency_hz,
@@ -252,13 +254,11 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
     -------
     TradeResult
     """
-    from .schedule import prepare  # noqa: PLC0415
-
     objective = objective or scenario.objective
-    mission = prepare(scenario)
+    mission = plan_mission(scenario)
     limits = Limits(required_margin_db=scenario.required_margin_db, max_comm_mass_kg=scenario.max_comm_mass_kg,
                     max_dc_power_w=scenario.max_dc_power_w)
-    spaces = [build_band_space(scenario, b) for b in scenario.band_ids]
+    spaces = [build_band_space(scenario, b, mission) for b in scenario.band_ids]
     total = sum(sp.size for sp in spaces)
     dropped_note = None
     if keep_designs and total > designs_csv_max:
@@ -269,7 +269,7 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
                    keep_designs=keep_designs)
     res = TradeResult(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found,
                       mission=mission)
-    res.notes.extend(mission.notes)
+    res.notes.extend(mission.messages)
     if dropped_note:
         res.notes.append(dropped_note)
     for s in spaces:
@@ -301,11 +301,11 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
                                                                                         rest))
             res.least_power[space.band_id] = least_rf_power_w(space, limits.required_margin_db)
         _evidence(scenario, res)
-    if best is not None and mission.plan is not None:
+    if best is not None and mission.contacts is not None:
         res.volume = _volume_analysis(scenario, res, best)
         if mission.daily_volume_bits is not None:
             rates = {r["site_id"]: r["closing_rate_bps"] for r in res.volume["sites"]}
-            mission.network = network_choice(scenario, mission.plan, mission.daily_volume_bits, rates)
+            res.mission = with_network_choice(scenario, mission, rates)
     return res
 
 
@@ -330,7 +330,7 @@ def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
       visible required sites and every modulation.
     """
     space = res.space(best["band_id"])
-    plan = res.mission.plan
+    plan = res.mission.contacts
     edges = np.asarray(plan.bin_edges_deg, dtype=float)
     g = best["g"]
     row = space.ground.iloc[g]
@@ -339,7 +339,7 @@ def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
     info = space.modcods["info_bits_per_symbol"].to_numpy(float)
     roll = space.modcods["rolloff"].to_numpy(float)
     bw_cap = space.available_bandwidth_hz * info / (1.0 + roll)
-    rate = scenario.rate_bps
+    rate = space.rate_bps
     req_margin = scenario.required_margin_db
     c_design = best["c"]
     el_state = np.asarray(plan.joint_elevation_deg, dtype=float)
@@ -351,10 +351,10 @@ def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
         el = np.asarray(el, dtype=float)
         if el.size == 0:
             return np.zeros((0, rest_c.size)), np.zeros(0)
-        if scenario.altitude_m is not None:
-            rng = np.asarray(path.slant_range_m(scenario.altitude_m, el), dtype=float)
+        if space.geometry.altitude_m is not None:
+            rng = np.asarray(path.slant_range_m(space.geometry.altitude_m, el), dtype=float)
         else:
-            rng = np.full(el.shape, scenario.site_geometry[site.id][1])
+            rng = np.full(el.shape, space.geometry.sites[site.id][1])
         st = site_terms_for_apertures(scenario, [site] * el.size, space.frequency_hz,
                                       diameter_m=float(row["diameter_m"]), efficiency=float(row["efficiency"]),
                                       feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,

@@ -43,7 +43,8 @@ class DishModel:
         required = [s for s in scenario.sites if s.required]
         st = site_terms_for_apertures(scenario, required, space.frequency_hz, diameter_m=self.diameters_m,
                                       efficiency=self.efficiency, feed_loss_db=self.feed_loss_db,
-                                      clear_sky_temperature_k=t_clear)
+                                      clear_sky_temperature_k=t_clear,
+                                      elevation_deg=space.site_terms.elevation_deg, range_m=space.site_terms.range_m)
         gain, point, _ = end_gain_and_pointing(frequency_hz=space.frequency_hz, diameter_m=self.diameters_m,
                                                efficiency=self.efficiency,
                                                pointing_error_deg=self.pointing_error_deg)

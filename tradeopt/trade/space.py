@@ -9,6 +9,10 @@ depend on one axis each, so the margin of every design of a band is
 where X already holds the worst required site (the site terms depend only on
 the ground antenna). Propagation is computed once per (site, frequency,
 elevation, availability, aperture) and reused for every design.
+
+The information rate and the geometry of each site's link come from the mission
+plan (:class:`tradeopt.plan.mission.MissionPlan`), never from the scenario, which
+is read only.
 """
 from __future__ import annotations
 
@@ -82,6 +86,8 @@ class BandSpace:
     pfd_density_c_db: np.ndarray  # 10 log10(min(1, ref_bw / occupied_bw))
     pfd_worst_db: float | None  # max over arrival angles of (-spreading - limit); None when no limit applies
     pfd_worst_angle_deg: float | None
+    rate_bps: float = 0.0  # information rate the space was built for [bit/s] (the plan's)
+    geometry: object = None  # tradeopt.plan.mission.LinkGeometry the site terms were computed at
     pfd_source: str = ""
     notes: list = field(default_factory=list)
 
@@ -96,39 +102,50 @@ class BandSpace:
         return int(np.prod(self.shape))
 
 
-def site_geometry(scenario, sites) -> tuple[np.ndarray, np.ndarray]:
-    """Elevation [deg] and slant range [m] at each site's minimum elevation.
+def site_geometry(geometry, sites) -> tuple[np.ndarray, np.ndarray]:
+    """Elevation [deg] and slant range [m] of each site's link budget.
 
-    From the propagated orbit when the scenario has it (``scenario.site_geometry``),
-    else from the spherical-Earth formula (altitude) or the fixed range.
+    Parameters
+    ----------
+    geometry : tradeopt.plan.mission.LinkGeometry
+        The mission plan's link geometry.
+    sites : list of Site
+        The sites.
+
+    Returns
+    -------
+    elevation_deg, range_m : numpy.ndarray
+        From the propagated orbit or the geostationary slot when the geometry has every site,
+        else each site's minimum elevation [deg] with the fixed range or the spherical-Earth
+        slant range at the geometry's altitude [m].
     """
     el = np.array([s.min_elevation_deg for s in sites], dtype=float)
-    if scenario.site_geometry and all(s.id in scenario.site_geometry for s in sites):
-        el = np.array([scenario.site_geometry[s.id][0] for s in sites], dtype=float)
-        rng = np.array([scenario.site_geometry[s.id][1] for s in sites], dtype=float)
-    elif scenario.range_m is not None:
-        rng = np.full(el.shape, float(scenario.range_m))
+    if geometry.sites and all(s.id in geometry.sites for s in sites):
+        el = np.array([geometry.sites[s.id][0] for s in sites], dtype=float)
+        rng = np.array([geometry.sites[s.id][1] for s in sites], dtype=float)
+    elif geometry.range_m is not None:
+        rng = np.full(el.shape, float(geometry.range_m))
     else:
-        rng = np.asarray(path.slant_range_m(scenario.altitude_m, el), dtype=float)
+        rng = np.asarray(path.slant_range_m(geometry.altitude_m, el), dtype=float)
     return el, rng
 
 
 def site_terms_for_apertures(scenario, sites, frequency_hz: float, *, diameter_m, efficiency, feed_loss_db,
-                             clear_sky_temperature_k, elevation_deg=None, range_m=None) -> SiteTerms:
+                             clear_sky_temperature_k, elevation_deg, range_m) -> SiteTerms:
     """Propagation and noise terms for each ground aperture at each site.
 
     Parameters
     ----------
     scenario : Scenario
-        For availability, orbit and polarization tilt.
+        For availability and polarization tilt.
     sites : list of Site
         The sites.
     frequency_hz : float
         [Hz].
     diameter_m, efficiency, feed_loss_db, clear_sky_temperature_k : array_like
         Per aperture: diameter [m], efficiency [-], feed loss [dB], clear-sky system noise temperature [K].
-    elevation_deg, range_m : array_like, optional
-        Per site; default each site's minimum elevation and the slant range there.
+    elevation_deg, range_m : array_like
+        Per site: elevation [deg] and slant range [m] (:func:`site_geometry` gives the budget's).
 
     Returns
     -------
@@ -138,10 +155,7 @@ def site_terms_for_apertures(scenario, sites, frequency_hz: float, *, diameter_m
     eta = np.broadcast_to(np.asarray(efficiency, dtype=float), d.shape)
     feed = np.broadcast_to(np.asarray(feed_loss_db, dtype=float), d.shape)
     t_clear = np.broadcast_to(np.asarray(clear_sky_temperature_k, dtype=float), d.shape)
-    if elevation_deg is None:
-        el, rng = site_geometry(scenario, sites)
-    else:
-        el, rng = np.asarray(elevation_deg, dtype=float), np.asarray(range_m, dtype=float)
+    el, rng = np.asarray(elevation_deg, dtype=float), np.asarray(range_m, dtype=float)
     fsl = np.asarray(path.free_space_loss_db(rng, frequency_hz), dtype=float).reshape(-1)
     shape = (d.size, len(sites))
     comp = {k: np.empty(shape) for k in ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")}
@@ -167,23 +181,29 @@ def _filter(table, column: str, allowed):
     return table[table[column].isin(allowed)]
 
 
-def _pfd_worst(scenario, catalog, frequency_hz: float, sites):
-    """Max over arrival angles of (-10 log10(4 pi d^2) - limit) [dB], its angle, and the table row used."""
+def _pfd_worst(geometry, catalog, frequency_hz: float, sites):
+    """Max over arrival angles of (-10 log10(4 pi d^2) - limit) [dB], its angle, and the table row used.
+
+    The arrival angles and ranges come from the link geometry (``geometry``, a
+    :class:`tradeopt.plan.mission.LinkGeometry`): each site's look angle without an altitude
+    (a geostationary slot), the lowest mask at a fixed range, else every angle from the
+    lowest mask up at the spherical-Earth range from the altitude.
+    """
     lim = catalog.pfd_limits
     row = lim[(lim["lower_hz"] <= frequency_hz) & (lim["upper_hz"] >= frequency_hz)]
     if row.empty:
         return None, None, None
     r = row.iloc[0]
     lowest = min(s.min_elevation_deg for s in sites)
-    if scenario.altitude_m is None and scenario.site_geometry:
-        angles = np.array([g[0] for g in scenario.site_geometry.values()])
-        rng = np.array([g[1] for g in scenario.site_geometry.values()])
-    elif scenario.range_m is not None:
+    if geometry.altitude_m is None and geometry.sites:
+        angles = np.array([g[0] for g in geometry.sites.values()])
+        rng = np.array([g[1] for g in geometry.sites.values()])
+    elif geometry.range_m is not None:
         angles = np.array([lowest])
-        rng = np.array([float(scenario.range_m)])
+        rng = np.array([float(geometry.range_m)])
     else:
         angles = np.unique(np.concatenate([[lowest], np.arange(np.ceil(lowest), 90.0 + 1e-9, 0.5)]))
-        rng = np.asarray(path.slant_range_m(scenario.altitude_m, angles), dtype=float)
+        rng = np.asarray(path.slant_range_m(geometry.altitude_m, angles), dtype=float)
     limit = spectrum.pfd_limit_dbw_m2(angles, low_dbw_m2=r.pfd_low_dbw_m2, high_dbw_m2=r.pfd_high_dbw_m2,
                                       low_angle_deg=r.low_angle_deg, high_angle_deg=r.high_angle_deg)
     value = spectrum.power_flux_density_dbw_m2(0.0, rng) - limit
@@ -191,14 +211,18 @@ def _pfd_worst(scenario, catalog, frequency_hz: float, sites):
     return float(value[i]), float(angles[i]), r
 
 
-def build_band_space(scenario, band_id: str) -> BandSpace:
+def build_band_space(scenario, band_id: str, plan) -> BandSpace:
     """Per-axis vectors for one band of a scenario (required sites only enter the margin).
 
     Parameters
     ----------
     scenario : Scenario
+        Read only: catalog, options, sites, losses and limits.
     band_id : str
         A band of the scenario.
+    plan : tradeopt.plan.mission.MissionPlan
+        The information rate [bit/s] every design carries and the geometry of each site's link
+        (:func:`tradeopt.plan.mission.plan_mission`).
 
     Returns
     -------
@@ -229,9 +253,11 @@ def build_band_space(scenario, band_id: str) -> BandSpace:
                                                           ground["lna_noise_temperature_k"].to_numpy(float)),
                          dtype=float)
     required = [s for s in scenario.sites if s.required]
+    el_req, rng_req = site_geometry(plan.geometry, required)
     st = site_terms_for_apertures(scenario, required, f_hz, diameter_m=ground["diameter_m"].to_numpy(float),
                                   efficiency=ground["efficiency"].to_numpy(float),
-                                  feed_loss_db=ground["feed_loss_db"].to_numpy(float), clear_sky_temperature_k=t_clear)
+                                  feed_loss_db=ground["feed_loss_db"].to_numpy(float), clear_sky_temperature_k=t_clear,
+                                  elevation_deg=el_req, range_m=rng_req)
     per_site = st.path_and_noise_db
     worst = np.argmin(per_site, axis=1) if len(ground) else np.zeros(0, dtype=int)
     x_g = g_gain - g_point + (per_site[np.arange(len(ground)), worst] if len(ground) else np.zeros(0))
@@ -256,17 +282,18 @@ def build_band_space(scenario, band_id: str) -> BandSpace:
 
     # Coded-modulation axis.
     w_c = -mods["ebn0_required_db"].to_numpy(float)
-    sym = waveform.symbol_rate_baud(scenario.rate_bps, mods["info_bits_per_symbol"].to_numpy(float))
+    rate_bps = float(plan.rate_bps)
+    sym = waveform.symbol_rate_baud(rate_bps, mods["info_bits_per_symbol"].to_numpy(float))
     bw_c = np.asarray(waveform.occupied_bandwidth_hz(sym, mods["rolloff"].to_numpy(float)), dtype=float)
 
     const = (-scenario.polarization_loss_db - scenario.other_losses_db - BOLTZMANN_DBW_PER_K_HZ
-             - 10.0 * np.log10(scenario.rate_bps) - scenario.implementation_loss_db)
+             - 10.0 * np.log10(rate_bps) - scenario.implementation_loss_db)
 
     available = float(b["upper_hz"] - b["lower_hz"])
     if band_id in scenario.bandwidth_limits_hz:
         available = min(available, float(scenario.bandwidth_limits_hz[band_id]))
 
-    pfd_worst, pfd_angle, pfd_row = _pfd_worst(scenario, cat, f_hz, scenario.sites)
+    pfd_worst, pfd_angle, pfd_row = _pfd_worst(plan.geometry, cat, f_hz, scenario.sites)
     if pfd_row is None:
         dens = np.zeros(len(mods))
         notes.append(f"{band_id}: no power-flux-density limit in the catalog covers {f_hz / 1e9:g} GHz")
@@ -291,4 +318,5 @@ def build_band_space(scenario, band_id: str) -> BandSpace:
                      w_c=w_c, const_db=float(const), limiting_site_g=worst, site_terms=st,
                      mass_a=craft["mass_kg"].to_numpy(float), mass_m=mass_m, dc_power_m=dc_m, eirp_am_dbw=eirp_am,
                      bandwidth_c_hz=bw_c, pfd_density_c_db=dens, pfd_worst_db=pfd_worst,
-                     pfd_worst_angle_deg=pfd_angle, pfd_source=pfd_source, notes=notes)
+                     pfd_worst_angle_deg=pfd_angle, rate_bps=rate_bps, geometry=plan.geometry,
+                     pfd_source=pfd_source, notes=notes)

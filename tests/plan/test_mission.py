@@ -1,4 +1,4 @@
-"""Contacts, demand and volume inside the trade (tradeopt.trade.schedule and the optimizer's volume analysis).
+"""The planning layer (tradeopt.plan: contacts, demand, mission plan) and the optimizer's volume analysis.
 
 References are named beside each check: volume and storage identities are definitions
 (rate x time, generation rate x gap); compression ratios are checked against the
@@ -24,7 +24,7 @@ from tradeopt.inputs.errors import InputError
 from tradeopt.inputs.scenario import load_scenario, scenario_from_dict
 from tradeopt.mission import orbit as orb
 from tradeopt.mission.network import brute_force_select_sites
-from tradeopt.trade import schedule
+from tradeopt.plan import demand as plan_demand
 
 DATA = Path(str(resources.files("tradeopt.data")))
 
@@ -46,10 +46,10 @@ def trade():
 def test_required_rate_times_union_contact_time_is_the_daily_volume(trade):
     # Definition: volume = rate x contact time, with simultaneous visibility counted once.
     m = trade.mission
-    assert trade.scenario.rate_bps * m.contact_s_per_day == pytest.approx(m.daily_volume_bits, rel=1e-12)
-    req = [i for i, s in enumerate(m.plan.sites) if s.required]
-    merged = orb.merge_contacts(m.plan.passes[m.plan.passes["site_index"].isin(req)])
-    assert m.contact_s_per_day == pytest.approx(merged["duration_s"].sum() / m.plan.days)
+    assert m.rate_bps * m.contact_s_per_day == pytest.approx(m.daily_volume_bits, rel=1e-12)
+    req = [i for i, s in enumerate(m.contacts.sites) if s.required]
+    merged = orb.merge_contacts(m.contacts.passes[m.contacts.passes["site_index"].isin(req)])
+    assert m.contact_s_per_day == pytest.approx(merged["duration_s"].sum() / m.contacts.days)
 
 
 def test_fixed_rate_volume_is_rate_times_union_time_above_the_masks(trade):
@@ -75,8 +75,8 @@ def test_variable_rate_volume_at_least_best_fixed(trade):
 def test_storage_is_generation_rate_times_worst_gap(trade):
     # Definition: data generated during the worst gap between contacts must fit the storage.
     st = trade.mission.storage
-    assert st["needed_bits"] == pytest.approx(st["generation_rate_bps"] * st["worst_gap_s"], rel=1e-12)
-    assert st["generation_rate_bps"] == pytest.approx(trade.mission.daily_volume_bits / 86400.0)
+    assert st.needed_bits == pytest.approx(st.generation_rate_bps * st.worst_gap_s, rel=1e-12)
+    assert st.generation_rate_bps == pytest.approx(trade.mission.daily_volume_bits / 86400.0)
 
 
 def test_site_range_comes_from_propagated_geometry(trade):
@@ -85,7 +85,7 @@ def test_site_range_comes_from_propagated_geometry(trade):
     from tradeopt.physics.path import slant_range_m
 
     for s in trade.scenario.sites:
-        el, rng = trade.scenario.site_geometry[s.id]
+        el, rng = trade.mission.geometry.sites[s.id]
         assert el == s.min_elevation_deg
         spherical = float(slant_range_m(560e3, el))
         assert rng != spherical and abs(rng - spherical) / spherical < 0.03
@@ -95,8 +95,8 @@ def test_network_choice_matches_enumeration(trade):
     # The MILP's cheapest site set has the same cost as enumerating every subset.
     m = trade.mission
     net = m.network
-    assert net is not None and net["status"] == "optimal"
-    plan = m.plan
+    assert net is not None and net.status == "optimal"
+    plan = m.contacts
     slot = trade.scenario.network["slot_s"]
     n_slots = int(np.ceil(plan.days * 86400.0 / slot))
     cand = [i for i, s in enumerate(plan.sites) if s.cost_per_year is not None]
@@ -110,17 +110,17 @@ def test_network_choice_matches_enumeration(trade):
             ok = k < n_slots
             cover[row, k[ok]] = np.maximum(cover[row, k[ok]], np.minimum(n[ok] / slot, 1.0))
     costs = np.array([plan.sites[i].cost_per_year for i in cand])
-    rates = np.array([net["rate_bps_by_site"][plan.sites[i].id] for i in cand])
+    rates = np.array([net.rate_bps_by_site[plan.sites[i].id] for i in cand])
     ref = brute_force_select_sites(cover > 0, costs, m.daily_volume_bits, rates[:, None] * cover, slot,
                                    days=plan.days)
     assert ref.status == "optimal"
-    assert net["cost_per_year"] == pytest.approx(ref.cost_per_year)
+    assert net.cost_per_year == pytest.approx(ref.cost_per_year)
 
 
 def test_demand_measures_compression_with_the_codecs():
     # The ratio is measured on the user's sample file, never invented: zlib 9, bz2 9, lzma (preset 6).
     sc = load_scenario(None)
-    d = schedule.demand_plan(sc)
+    d = plan_demand.demand_plan(sc)
     data = (DATA / "imager_sample.bin").read_bytes()
     measured = d.compression[0]["measured"]
     assert measured["zlib"] == pytest.approx(len(data) / len(zlib.compress(data, 9)))
@@ -180,7 +180,7 @@ def test_sampling_below_nyquist_is_a_warning_not_an_error():
     imager = data["payloads"][0]
     imager["sampling_rate_hz"] = 1.5 * imager["signal_bandwidth_hz"]
     sc = scenario_from_dict(data, file="<test>", base_dir=DATA)
-    d = schedule.demand_plan(sc)
+    d = plan_demand.demand_plan(sc)
     assert any("aliases" in w for w in d.warnings)
     assert "WARNING" in d.result.table["note"].iloc[0]
 
@@ -190,7 +190,7 @@ def test_quantization_below_required_snr_is_a_warning():
     data = _default_dict()
     data["payloads"][0]["bits_per_sample"] = 10
     sc = scenario_from_dict(data, file="<test>", base_dir=DATA)
-    d = schedule.demand_plan(sc)
+    d = plan_demand.demand_plan(sc)
     q = d.quantization[0]
     assert q["quantization_snr_db"] == pytest.approx(61.96) and q["meets"] is False and q["bits_needed"] == 12
     assert any("quantization" in w for w in d.warnings)
