@@ -15,6 +15,8 @@ import json
 import numpy as np
 
 from ..trade.optimize import design_ids, design_link_dict, misses_text, reason_text
+from ..trade.constraints import reason_texts
+from ..trade.evaluate import context
 from ..trade.sizing import KNEE_FRACTION
 from .provenance import CSV_FLOAT_FORMAT, clean_for_json, versions
 from .tables import budget_record
@@ -69,44 +71,12 @@ def _design_row(res, space, rec) -> dict:
     return row
 
 
-def _fmt(fmt: str, values) -> np.ndarray:
-    return np.char.mod(fmt, np.asarray(values, dtype=float))
-
-
 def _reason_texts(res, space, br) -> np.ndarray:
-    """The ``reason`` column, vectorized; the same text as :func:`tradeopt.trade.optimize.reason_text`."""
-    lim = res.limits
-    out = np.full(br.g.size, "feasible", dtype=object)
-    add = np.char.add
-    sel = br.reason == 1
-    if sel.any():
-        txt = add(add(add("occupied bandwidth ", _fmt("%.4g", br.bandwidth_hz[sel] / 1e6)),
-                      f" MHz exceeds the {space.available_bandwidth_hz / 1e6:.4g} MHz available in {space.band_id} by "),
-                  add(_fmt("%.4g", br.shortfall[sel] / 1e6), " MHz"))
-        out[sel] = txt.astype(object)
-    sel = br.reason == 2
-    if sel.any():
-        sites = np.asarray(space.site_terms.site_ids, dtype=object)[space.limiting_site_g[br.g[sel]]].astype(str)
-        txt = add(add(add("margin ", _fmt("%.2f", br.margin_db[sel])), " dB is "),
-                  add(add(_fmt("%.2f", br.shortfall[sel]), f" dB short of the {lim.required_margin_db:g} dB required at "),
-                      sites))
-        out[sel] = txt.astype(object)
-    sel = br.reason == 3
-    if sel.any():
-        txt = add(add("power-flux density exceeds the Radio Regulations Article 21 limit by ",
-                      _fmt("%.2f", br.shortfall[sel])), f" dB (worst at {space.pfd_worst_angle_deg:g} deg arrival)")
-        out[sel] = txt.astype(object)
-    sel = br.reason == 4
-    if sel.any():
-        txt = add(add(add("comm mass ", _fmt("%.2f", br.mass_kg[sel])), f" kg exceeds the {lim.max_comm_mass_kg:g} kg "
-                      "limit by "), add(_fmt("%.2f", br.shortfall[sel]), " kg"))
-        out[sel] = txt.astype(object)
-    sel = br.reason == 5
-    if sel.any():
-        txt = add(add(add("DC power ", _fmt("%.1f", br.dc_power_w[sel])), f" W exceeds the {lim.max_dc_power_w:g} W "
-                      "limit by "), add(_fmt("%.1f", br.shortfall[sel]), " W"))
-        out[sel] = txt.astype(object)
-    return out
+    """The ``reason`` column; the same text as :func:`tradeopt.trade.optimize.reason_text`."""
+    values = {"bandwidth_hz": br.bandwidth_hz, "margin_db": br.margin_db, "pfd_excess_db": br.pfd_excess_db,
+              "mass_kg": br.mass_kg, "dc_power_w": br.dc_power_w}
+    sites = np.asarray(space.site_terms.site_ids, dtype=object)[space.limiting_site_g[br.g]]
+    return reason_texts(br.reason, values, br.shortfall, context(space, res.limits), sites)
 
 
 def _designs_table(res):

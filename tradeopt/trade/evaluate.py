@@ -12,10 +12,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["REASONS", "Limits", "BlockResult", "SearchResult", "evaluate_block", "iter_blocks", "search"]
+from . import constraints as cons
+from .constraints import REASONS, Context, by_name, excess
 
-#: Reason codes, in the order the constraints are checked.
-REASONS = {0: "feasible", 1: "bandwidth", 2: "margin", 3: "pfd", 4: "mass", 5: "dc_power"}
+__all__ = ["REASONS", "Limits", "BlockResult", "SearchResult", "evaluate_block", "iter_blocks", "search", "context"]
 
 
 @dataclass(frozen=True)
@@ -25,6 +25,28 @@ class Limits:
     required_margin_db: float
     max_comm_mass_kg: float = float("inf")
     max_dc_power_w: float = float("inf")
+
+
+def context(space, limits: Limits) -> Context:
+    """The constraint levels of a band (:class:`tradeopt.trade.constraints.Context`)."""
+    return Context(band_id=space.band_id, available_bandwidth_hz=float(space.available_bandwidth_hz),
+                   required_margin_db=limits.required_margin_db, max_comm_mass_kg=limits.max_comm_mass_kg,
+                   max_dc_power_w=limits.max_dc_power_w, pfd_worst_angle_deg=space.pfd_worst_angle_deg)
+
+
+def _first_broken(values: dict, ctx: Context, shape, constraints=None):
+    """Code of the first broken constraint (0: none), its excess, and how many are broken."""
+    code = np.zeros(shape, dtype=np.int8)
+    amount = np.zeros(shape)
+    n_broken = np.zeros(shape, dtype=np.int8)
+    # last assignment wins: the first broken constraint
+    for c in reversed(cons.CONSTRAINTS if constraints is None else constraints):
+        e = np.broadcast_to(excess(c, values, ctx), shape)
+        bad = e > c.tolerance
+        code[bad] = c.code
+        amount = np.where(bad, e, amount)
+        n_broken += bad
+    return code, amount, n_broken
 
 
 @dataclass
@@ -85,23 +107,13 @@ def evaluate_block(space, limits: Limits, gs: slice, as_: slice) -> BlockResult:
     bw = space.bandwidth_c_hz[None, None, None, :]
     mass = (space.mass_a[as_][:, None] + space.mass_m[None, :])[None, :, :, None]
     dc = space.dc_power_m[None, None, :, None]
-    bw_excess = bw - space.available_bandwidth_hz
-    margin_short = limits.required_margin_db - margin
     if space.pfd_worst_db is None:
         pfd = np.full((1, 1, 1, 1), -np.inf)
     else:
         pfd = (space.eirp_am_dbw[as_][None, :, :, None] + space.pfd_density_c_db[None, None, None, :]
                + space.pfd_worst_db)
-    mass_excess = mass - limits.max_comm_mass_kg
-    dc_excess = dc - limits.max_dc_power_w
-    broken = [bw_excess > 0, margin_short > 1e-12, pfd > 0, mass_excess > 0, dc_excess > 0]
-    amounts = [bw_excess, margin_short, pfd, mass_excess, dc_excess]
-    reason = np.zeros(shape, dtype=np.int8)
-    shortfall = np.zeros(shape)
-    for code in range(len(broken), 0, -1):  # last assignment wins: the first broken constraint
-        cond = np.broadcast_to(broken[code - 1], shape)
-        reason[cond] = code
-        shortfall = np.where(cond, np.broadcast_to(amounts[code - 1], shape), shortfall)
+    values = {"bandwidth_hz": bw, "margin_db": margin, "pfd_excess_db": pfd, "mass_kg": mass, "dc_power_w": dc}
+    reason, shortfall, _ = _first_broken(values, context(space, limits), shape)
     flat = lambda v: np.broadcast_to(v, shape).reshape(-1)  # noqa: E731
     gi, ai, mi, ci = np.meshgrid(np.arange(gs.start, gs.stop), np.arange(as_.start, as_.stop),
                                  np.arange(shape[2]), np.arange(shape[3]), indexing="ij")
@@ -165,13 +177,10 @@ def _fixed(space, limits: Limits, objective: str) -> _Fixed:
         pfd = space.eirp_am_dbw[:, :, None] + space.pfd_density_c_db[None, None, :] + space.pfd_worst_db
     mass = np.broadcast_to((space.mass_a[:, None] + space.mass_m[None, :])[:, :, None], shape)
     dc = np.broadcast_to(space.dc_power_m[None, :, None], shape)
-    checks = [(1, np.broadcast_to(space.bandwidth_c_hz[None, None, :] > space.available_bandwidth_hz, shape)),
-              (3, pfd > 0), (4, mass > limits.max_comm_mass_kg), (5, dc > limits.max_dc_power_w)]
-    code = np.zeros(shape, dtype=np.int8)
-    n_broken = np.zeros(shape, dtype=np.int8)
-    for k, bad in reversed(checks):
-        code[bad] = k
-        n_broken += bad
+    values = {"bandwidth_hz": space.bandwidth_c_hz[None, None, :], "pfd_excess_db": pfd, "mass_kg": mass,
+              "dc_power_w": dc}
+    code, _, n_broken = _first_broken(values, context(space, limits), shape,
+                                      constraints=tuple(c for c in cons.CONSTRAINTS if c.fixed))
     obj = np.ascontiguousarray(_objective(objective, mass, dc))
     other = np.ascontiguousarray(_objective("power" if objective == "mass" else "mass", mass, dc))
     return _Fixed(rest_db=np.ascontiguousarray(rest), pfd_excess_db=pfd, mass_kg=np.ascontiguousarray(mass),
@@ -182,22 +191,14 @@ def _fixed(space, limits: Limits, objective: str) -> _Fixed:
 def _record(space, fixed: _Fixed, limits: Limits, g: int, a: int, m: int, c: int, band_order: int) -> dict:
     """Everything known about one design, as a plain dict."""
     margin = float(space.x_g[g] + fixed.rest_db[a, m, c])
-    margin_bad = limits.required_margin_db - margin > 1e-12
-    code = int(fixed.code[a, m, c])
-    if code == 1:
-        reason = 1
-    elif margin_bad:
-        reason = 2
-    else:
-        reason = code
-    amounts = {0: 0.0, 1: float(space.bandwidth_c_hz[c] - space.available_bandwidth_hz),
-               2: limits.required_margin_db - margin, 3: float(fixed.pfd_excess_db[a, m, c]),
-               4: float(fixed.mass_kg[a, m, c] - limits.max_comm_mass_kg),
-               5: float(fixed.dc_power_w[a, m, c] - limits.max_dc_power_w)}
+    values = {"bandwidth_hz": float(space.bandwidth_c_hz[c]), "margin_db": margin,
+              "pfd_excess_db": float(fixed.pfd_excess_db[a, m, c]), "mass_kg": float(fixed.mass_kg[a, m, c]),
+              "dc_power_w": float(fixed.dc_power_w[a, m, c])}
+    code, amount, n_broken = (np.ndarray.item(v) for v in _first_broken(values, context(space, limits), ()))
     rec = {"band_id": space.band_id, "g": int(g), "a": int(a), "m": int(m), "c": int(c), "margin_db": margin,
            "mass_kg": float(fixed.mass_kg[a, m, c]), "dc_power_w": float(fixed.dc_power_w[a, m, c]),
            "bandwidth_hz": float(space.bandwidth_c_hz[c]), "pfd_excess_db": float(fixed.pfd_excess_db[a, m, c]),
-           "reason": reason, "shortfall": amounts[reason], "n_broken": int(fixed.n_broken[a, m, c]) + int(margin_bad),
+           "reason": int(code), "shortfall": float(amount), "n_broken": int(n_broken),
            "ground_diameter_m": float(fixed.diameter_m[int(g)])}
     obj = float(fixed.objective[a, m, c])
     other = float(fixed.other[a, m, c])
@@ -254,9 +255,9 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
     import moocore  # noqa: PLC0415
 
     res = SearchResult(objective=objective)
-    counts = {name: 0 for name in REASONS.values()}
+    counts = {"feasible": 0, **{c.name: 0 for c in cons.CONSTRAINTS}}  # designs per first broken constraint
     fronts: list = []
-    req = limits.required_margin_db - 1e-12
+    req = limits.required_margin_db - by_name("margin").tolerance
     for order, space in enumerate(spaces):
         fx = _fixed(space, limits, objective)
         fixed_ok = fx.code == 0
@@ -280,10 +281,17 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
             gb = len(x)
             n_ok = int(np.sum(n_mok[code == 0]))
             res.designs_feasible += n_ok
-            counts["bandwidth"] += int(gb * np.count_nonzero(code == 1))
-            counts["margin"] += int(np.sum((gb - n_mok)[code != 1]))
-            for k in (0, 3, 4, 5):
-                counts[REASONS[k]] += int(np.sum(n_mok[code == k]))
+            # Each design counts under its first broken constraint: a fixed one checked before the margin
+            # takes every ground antenna; the margin takes those that do not close among the rest.
+            margin_code = by_name("margin").code
+            counts["feasible"] += n_ok
+            for con in cons.CONSTRAINTS:
+                if con.code == margin_code:
+                    counts[con.name] += int(np.sum((gb - n_mok)[(code == 0) | (code > margin_code)]))
+                elif con.code < margin_code:
+                    counts[con.name] += int(gb * np.count_nonzero(code == con.code))
+                else:
+                    counts[con.name] += int(np.sum(n_mok[code == con.code]))
             if keep_designs:
                 res.designs.append((space, evaluate_block(space, limits, gs, as_)))
             if n_ok == 0:
@@ -335,17 +343,18 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
         if len(space.x_g) and fx.code.size:
             g_top = int(np.argmax(space.x_g))
             margin_top = space.x_g[g_top] + fx.rest_db
-            short = np.maximum(0.0, limits.required_margin_db - margin_top)
-            n_br = fx.n_broken + (limits.required_margin_db - margin_top > 1e-12)
-            over_bw = np.broadcast_to(np.maximum(0.0, space.bandwidth_c_hz - space.available_bandwidth_hz),
-                                      fx.code.shape)
-            infeasible = n_br > 0
-            idx = np.flatnonzero(infeasible.reshape(-1))
-            keys = [np.round(fx.objective.reshape(-1)[idx], 9),
-                    np.maximum(0.0, fx.dc_power_w - limits.max_dc_power_w).reshape(-1)[idx],
-                    np.maximum(0.0, fx.mass_kg - limits.max_comm_mass_kg).reshape(-1)[idx],
-                    np.maximum(0.0, fx.pfd_excess_db).reshape(-1)[idx],
-                    over_bw.reshape(-1)[idx], short.reshape(-1)[idx], n_br.reshape(-1)[idx]]
+            shape = fx.code.shape
+            values = {"bandwidth_hz": space.bandwidth_c_hz[None, None, :], "margin_db": margin_top,
+                      "pfd_excess_db": fx.pfd_excess_db, "mass_kg": fx.mass_kg, "dc_power_w": fx.dc_power_w}
+            ctx = context(space, limits)
+            _, _, n_br = _first_broken(values, ctx, shape)
+            idx = np.flatnonzero((n_br > 0).reshape(-1))
+            # ranked by the number broken, then each excess in the table's closest_rank order, then objective
+            ranked = sorted(cons.CONSTRAINTS, key=lambda c: c.closest_rank)
+            keys = [np.round(fx.objective.reshape(-1)[idx], 9)]
+            keys += [np.maximum(0.0, np.broadcast_to(excess(c, values, ctx), shape)).reshape(-1)[idx]
+                     for c in reversed(ranked)]
+            keys.append(n_br.reshape(-1)[idx])
             order_idx = idx[np.lexsort(keys)][:n_closest]
             for flat in order_idx:
                 a_i, m_i, c_i = np.unravel_index(flat, fx.code.shape)

@@ -11,7 +11,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..physics import path, propagation
-from .evaluate import Limits, SearchResult, search
+from .constraints import miss_texts, reason_texts
+from .evaluate import Limits, SearchResult, context, search
 from .linkcalc import compute_link
 from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_m
 from ..plan.mission import plan_mission, with_network_choice
@@ -67,43 +68,23 @@ def design_ids(space: BandSpace, g: int, a: int, m: int, c: int) -> dict:
             "modcod_id": str(space.modcods["modcod_id"].iloc[c])}
 
 
+def _limiting_site(space: BandSpace, rec: dict) -> str:
+    return space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])]
+
+
 def reason_text(space: BandSpace, rec: dict, limits: Limits) -> str:
     """One-line reason of a design (``feasible`` or the first broken constraint and by how much)."""
-    code = rec["reason"]
-    amount = rec["shortfall"]
-    if code == 0:
-        return "feasible"
-    if code == 1:
-        return (f"occupied bandwidth {rec['bandwidth_hz'] / 1e6:.4g} MHz exceeds the {space.available_bandwidth_hz / 1e6:.4g}"
-                f" MHz available in {space.band_id} by {amount / 1e6:.4g} MHz")
-    if code == 2:
-        site = space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])]
-        return f"margin {rec['margin_db']:.2f} dB is {amount:.2f} dB short of the {limits.required_margin_db:g} dB required at {site}"
-    if code == 3:
-        return (f"power-flux density exceeds the Radio Regulations Article 21 limit by {amount:.2f} dB "
-                f"(worst at {space.pfd_worst_angle_deg:g} deg arrival)")
-    if code == 4:
-        return f"comm mass {rec['mass_kg']:.2f} kg exceeds the {limits.max_comm_mass_kg:g} kg limit by {amount:.2f} kg"
-    return f"DC power {rec['dc_power_w']:.1f} W exceeds the {limits.max_dc_power_w:g} W limit by {amount:.1f} W"
+    return str(reason_texts([rec["reason"]], {k: [rec[k]] for k in _QUANTITIES}, [rec["shortfall"]],
+                            context(space, limits), [_limiting_site(space, rec)])[0])
 
 
 def misses_text(space: BandSpace, rec: dict, limits: Limits) -> str:
     """Every constraint a design breaks, and by how much (``feasible`` when none)."""
-    parts = []
-    over_bw = rec["bandwidth_hz"] - space.available_bandwidth_hz
-    if over_bw > 0:
-        parts.append(f"bandwidth over by {over_bw / 1e6:.4g} MHz")
-    short = limits.required_margin_db - rec["margin_db"]
-    if short > 1e-12:
-        site = space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])]
-        parts.append(f"margin short by {short:.2f} dB at {site}")
-    if rec["pfd_excess_db"] > 0:
-        parts.append(f"pfd over the limit by {rec['pfd_excess_db']:.2f} dB")
-    if rec["mass_kg"] > limits.max_comm_mass_kg:
-        parts.append(f"mass over by {rec['mass_kg'] - limits.max_comm_mass_kg:.2f} kg")
-    if rec["dc_power_w"] > limits.max_dc_power_w:
-        parts.append(f"DC power over by {rec['dc_power_w'] - limits.max_dc_power_w:.1f} W")
-    return "; ".join(parts) if parts else "feasible"
+    return miss_texts({k: rec[k] for k in _QUANTITIES}, context(space, limits), _limiting_site(space, rec))
+
+
+#: The design quantities the constraints read (keys of a design record).
+_QUANTITIES = ("bandwidth_hz", "margin_db", "pfd_excess_db", "mass_kg", "dc_power_w")
 
 
 def design_link_dict(scenario, space: BandSpace, rec: dict, site) -> dict:

@@ -13,6 +13,9 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..physics import noise
+from . import constraints as cons
+from .constraints import by_name, excess
+from .evaluate import context
 from .linkcalc import end_gain_and_pointing
 from .space import site_terms_for_apertures
 
@@ -147,11 +150,18 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
     rest = space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :] + space.const_db
     mass = (space.mass_a[:, None] + space.mass_m[None, :])[:, :, None] * np.ones((1, 1, n_c))
     dc = np.broadcast_to(space.dc_power_m[None, :, None], rest.shape)
-    fixed_ok = np.broadcast_to(space.bandwidth_c_hz[None, None, :] <= space.available_bandwidth_hz, rest.shape)
-    if space.pfd_worst_db is not None:
+    if space.pfd_worst_db is None:
+        pfd = np.full(rest.shape, -np.inf)
+    else:
         pfd = space.eirp_am_dbw[:, :, None] + space.pfd_density_c_db[None, None, :] + space.pfd_worst_db
-        fixed_ok = fixed_ok & (pfd <= 0)
-    fixed_ok = fixed_ok & (mass <= limits.max_comm_mass_kg) & (dc <= limits.max_dc_power_w)
+    values = {"bandwidth_hz": space.bandwidth_c_hz[None, None, :], "pfd_excess_db": pfd, "mass_kg": mass,
+              "dc_power_w": dc}
+    ctx = context(space, limits)
+    fixed_ok = np.ones(rest.shape, dtype=bool)
+    for con in cons.CONSTRAINTS:
+        if con.fixed:
+            fixed_ok &= np.broadcast_to(excess(con, values, ctx), rest.shape) <= con.tolerance
+    margin_tol = by_name("margin").tolerance
     obj = mass if objective == "mass" else dc
     nd = model.diameters_m.size
     out = {k: np.full(nd, np.nan) for k in ("best_mass_kg", "best_dc_power_w", "margin_db")}
@@ -162,7 +172,7 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
     flat_bw = np.broadcast_to(space.bandwidth_c_hz[None, None, :], rest.shape).reshape(-1)
     for i in range(nd):
         margin = (model.x_d[i] + rest).reshape(-1)
-        feas = fixed_ok.reshape(-1) & (margin >= limits.required_margin_db - 1e-12)
+        feas = fixed_ok.reshape(-1) & (margin >= limits.required_margin_db - margin_tol)
         if not feas.any():
             continue
         fi = np.flatnonzero(feas)
