@@ -218,14 +218,14 @@ def read_catalog_csv(path: Path, name: str):
             raise InputError(f"has {len(row)} cells, the header has {len(header)}: extra cell after the last "
                              f"column {header[-1]!r}; put text containing commas in double quotes", file=fname,
                              where=f"line {line}, column {header[-1]!r}")
-        cells = dict(zip(header, row))
+        cells = dict(zip(header, row, strict=True))
         rec = {}
         for f in schema:
             rec[f.name] = convert(cells.get(f.name, MISSING), f, file=fname,
                                   where=f"line {line}, column {f.name!r}")
         key = tuple(rec[k] for k in _KEYS[name])
         if key in keys_seen:
-            shown = ", ".join(f"{k} {v!r}" for k, v in zip(_KEYS[name], key))
+            shown = ", ".join(f"{k} {v!r}" for k, v in zip(_KEYS[name], key, strict=True))
             raise InputError(f"duplicate item ({shown}) already on line {keys_seen[key]}; expected unique IDs",
                              file=fname, where=f"line {line}, column {_KEYS[name][0]!r}")
         keys_seen[key] = line
@@ -283,7 +283,7 @@ def _cross_check(cat: Catalog) -> None:
     from ..physics.waveform import shannon_ebn0_min_db  # noqa: PLC0415
 
     bound = shannon_ebn0_min_db(cat.modcods["info_bits_per_symbol"])
-    for r, b in zip(cat.modcods.itertuples(), bound):
+    for r, b in zip(cat.modcods.itertuples(), bound, strict=True):
         if r.ebn0_required_db <= b:
             raise InputError(f"required Eb/N0 {r.ebn0_required_db:.3f} dB (threshold_db read as "
                              f"{r.threshold_quantity}) is at or below the Shannon bound {b:.3f} dB at "

@@ -36,6 +36,6 @@ class InputError(Exception):
         prefix = ": ".join(parts)
         return f"{prefix}: {self.message}" if prefix else self.message
 
-    def located(self, *, file: str | None = None, where: str | None = None) -> "InputError":
+    def located(self, *, file: str | None = None, where: str | None = None) -> InputError:
         """A copy with the file or location filled in where still unknown."""
         return InputError(self.message, file=self.file or file, where=self.where or where)

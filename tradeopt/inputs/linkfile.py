@@ -236,7 +236,7 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
     if uses_catalog and catalog is None:
         cat_dir = link["catalogs"]
         if cat_dir is not None and file is not None:
-            cat_dir = str((Path(file).parent / cat_dir))
+            cat_dir = str(Path(file).parent / cat_dir)
         if cat_dir is not None and not Path(cat_dir).is_dir():
             raise InputError(f"catalog folder {cat_dir!r} not found; expected a folder of CSV catalogs "
                              "(relative to the link file)", file=file, where="key [link] catalogs")

@@ -10,6 +10,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from importlib import resources
+from itertools import pairwise
 from pathlib import Path
 
 from .catalog import Catalog, load_catalog
@@ -271,7 +272,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     network = _table(data, "network", file)
     edges = contacts["elevation_bin_edges_deg"]
     if edges is not None:
-        if len(edges) < 2 or any(b <= a for a, b in zip(edges, edges[1:])) or edges[0] < 0 or edges[-1] > 90:
+        if len(edges) < 2 or any(b <= a for a, b in pairwise(edges)) or edges[0] < 0 or edges[-1] > 90:
             raise InputError("expected at least two increasing elevations between 0 and 90 deg", file=file,
                              where="key [contacts] elevation_bin_edges_deg")
     _check_time(contacts["start_utc"], file, "key [contacts] start_utc")
@@ -335,7 +336,8 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         raise InputError("no site has required = true; at least one site must close the link", file=file,
                          where="table [[sites]]")
     notes = _unused_settings(data, req, arq, sites, propagated=propagated,
-                             orbit_form="range_m" if orbit["range_m"] is not None else "altitude_m without inclination_deg")
+                             orbit_form=("range_m" if orbit["range_m"] is not None
+                                         else "altitude_m without inclination_deg"))
 
     if catalog is None:
         cat_dir = sc["catalogs"]
@@ -376,7 +378,8 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
 
     limits_raw = data.get("bandwidth_limits_hz", {})
     if not isinstance(limits_raw, dict):
-        raise InputError("expected a table of band ID = bandwidth in Hz", file=file, where="table [bandwidth_limits_hz]")
+        raise InputError("expected a table of band ID = bandwidth in Hz", file=file,
+                         where="table [bandwidth_limits_hz]")
     limits = {}
     for b, value in limits_raw.items():
         if b not in sc["bands"]:
@@ -500,7 +503,8 @@ def _check_orbit(orbit: dict, file: str, written: set | None = None) -> None:
                              where="key [orbit] inclination_deg")
         from ..physics.units import EARTH_RADIUS_M  # noqa: PLC0415
 
-        a = orbit["semi_major_axis_m"] if orbit["semi_major_axis_m"] is not None else EARTH_RADIUS_M + orbit["altitude_m"]
+        a = (orbit["semi_major_axis_m"] if orbit["semi_major_axis_m"] is not None
+             else EARTH_RADIUS_M + orbit["altitude_m"])
         perigee = a * (1.0 - e) - EARTH_RADIUS_M
         if perigee < 100e3:
             raise InputError(f"perigee altitude {perigee / 1e3:.0f} km is below 100 km (below the surface when "

@@ -41,8 +41,8 @@ import math
 import os
 import stat
 import zlib
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, fields
-from typing import Mapping, Sequence
 
 import numpy as np
 import pandas as pd

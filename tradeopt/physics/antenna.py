@@ -66,7 +66,8 @@ def parabolic_diameter_m(gain_dbi, frequency_hz, efficiency):
     ----------
     Kraus and Marhefka, *Antennas*, 3rd ed. (2002).
     """
-    d = wavelength_m(frequency_hz) / np.pi * np.sqrt(np.power(10.0, np.divide(gain_dbi, 10.0)) / np.asarray(efficiency, dtype=float))
+    gain = np.power(10.0, np.divide(gain_dbi, 10.0))
+    d = wavelength_m(frequency_hz) / np.pi * np.sqrt(gain / np.asarray(efficiency, dtype=float))
     return restore_kind(d, widest(gain_dbi, frequency_hz, efficiency))
 
 

@@ -58,11 +58,13 @@ def sky_noise_temperature_k(attenuation_db, *, mean_radiating_temperature_k=MEAN
     Recommendation ITU-R P.618-14 (2023), section 3, eq. (69).
     """
     transmissivity = np.power(10.0, -np.asarray(attenuation_db, dtype=float) / 10.0)
-    t = np.asarray(mean_radiating_temperature_k, dtype=float) * (1.0 - transmissivity) + COSMIC_BACKGROUND_K * transmissivity
+    t_mr = np.asarray(mean_radiating_temperature_k, dtype=float)
+    t = t_mr * (1.0 - transmissivity) + COSMIC_BACKGROUND_K * transmissivity
     return restore_kind(t, widest(attenuation_db, mean_radiating_temperature_k))
 
 
-def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *, mean_radiating_temperature_k=MEAN_RADIATING_TEMPERATURE_K):
+def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *,
+                         mean_radiating_temperature_k=MEAN_RADIATING_TEMPERATURE_K):
     """Increase of sky noise over clear sky when the absorptive loss rises.
 
     Delta T = T_sky(A) - T_sky(A_clear) [K], both from ITU-R P.618-14 eq. (69).

@@ -86,7 +86,7 @@ def _load():
                 with warnings.catch_warnings():
                     warnings.simplefilter("ignore")
                     import itur  # noqa: PLC0415  (lazy: heavy, ~1 s and 0.5 GB)
-                    import itur.models.itu618  # noqa: F401
+                    import itur.models.itu618  # noqa: PLC0415
                 np.seterr(**saved)
                 _itur = itur
     return _itur

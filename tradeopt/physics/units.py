@@ -62,7 +62,7 @@ def restore_kind(value, like):
         An input whose kind the result should take.
     """
     try:
-        import pandas as pd  # local: pandas is only needed when a Series comes in
+        import pandas as pd  # noqa: PLC0415  (local: pandas is only needed when a Series comes in)
     except ImportError:  # pragma: no cover
         pd = None
     if pd is not None and isinstance(like, pd.Series):

@@ -98,7 +98,7 @@ _INVERSE_TOLERANCE_DB = 1e-11
 
 def _like(*args):
     """The input whose kind the result takes: a Series if any, else the widest."""
-    import pandas as pd  # local, as in units.restore_kind
+    import pandas as pd  # noqa: PLC0415  (local, as in units.restore_kind)
 
     for a in args:
         if isinstance(a, pd.Series):

@@ -117,7 +117,8 @@ def demand_plan(scenario) -> DemandPlan:
                 measured = dm.measure_compression(p["compression_sample_file"])
                 sample_bytes, file_bytes = dm.compression_sample_bytes(p["compression_sample_file"])
             except (OSError, ValueError) as exc:
-                raise InputError(str(exc), file=scenario.file, where="key [[payloads]] compression_sample_file") from None
+                raise InputError(str(exc), file=scenario.file,
+                                 where="key [[payloads]] compression_sample_file") from None
             codec = max(measured, key=measured.get) if p["compression_codec"] == "best" else p["compression_codec"]
             ratio = measured[codec]
         if ratio is None:

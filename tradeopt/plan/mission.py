@@ -320,7 +320,8 @@ def network_choice(scenario, plan: ContactPlan, daily_volume_bits: float,
     cover = np.zeros((len(cand), n_slots))  # fraction of each slot inside a pass
     for row, i in enumerate(cand):
         p = plan.passes[plan.passes["site_index"] == i]
-        for a, b in zip(p["start_utc"].to_numpy("datetime64[ns]"), p["end_utc"].to_numpy("datetime64[ns]")):
+        starts, ends = p["start_utc"].to_numpy("datetime64[ns]"), p["end_utc"].to_numpy("datetime64[ns]")
+        for a, b in zip(starts, ends, strict=True):
             a_s = max(0.0, ((a - t0) / np.timedelta64(1, "ns")) / 1e9)
             b_s = min(n_slots * slot, ((b - t0) / np.timedelta64(1, "ns")) / 1e9)
             if b_s <= a_s:
@@ -336,7 +337,7 @@ def network_choice(scenario, plan: ContactPlan, daily_volume_bits: float,
                          chosen=tuple(plan.sites[cand[k]].id for k in sel.site_indices),
                          cost_per_year=sel.cost_per_year, delivered_bits_per_day=sel.delivered_bits_per_day,
                          required_bits_per_day=daily_volume_bits,
-                         rate_bps_by_site={plan.sites[i].id: float(r) for i, r in zip(cand, rate_site)},
+                         rate_bps_by_site={plan.sites[i].id: float(r) for i, r in zip(cand, rate_site, strict=True)},
                          message=sel.message)
 
 

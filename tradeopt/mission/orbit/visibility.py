@@ -156,7 +156,7 @@ def joint_visibility(satrec, start_utc, days, sites, bin_edges_deg, min_elevatio
             continue
         rows, inv = np.unique(b[:, seen].T, axis=0, return_inverse=True)
         w = np.bincount(inv.reshape(-1), weights=(t_hi - t_lo)[seen], minlength=len(rows))
-        for row, wk in zip(map(tuple, rows.tolist()), w):
+        for row, wk in zip(map(tuple, rows.tolist()), w, strict=True):
             acc[row] = acc.get(row, 0.0) + float(wk)
     keys = sorted(acc)
     bins = np.array(keys, dtype=int).reshape(len(keys), site.n)
