@@ -15,8 +15,9 @@ theta / theta_3dB <= 0.5.
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
 
-from .units import restore_kind, wavelength_m, widest
+from .units import Floats, FloatsOut, restore_kind, wavelength_m, widest
 
 __all__ = [
     "BEAMWIDTH_COEFFICIENT_DEG",
@@ -34,7 +35,7 @@ BEAMWIDTH_COEFFICIENT_DEG = 70.0
 POINTING_LAW_LIMIT = 0.5
 
 
-def parabolic_gain_dbi(diameter_m, frequency_hz, efficiency):
+def parabolic_gain_dbi(diameter_m: Floats, frequency_hz: Floats, efficiency: Floats) -> FloatsOut:
     """Boresight gain of a circular aperture, G = eta (pi D f / c)^2.
 
     Parameters
@@ -54,12 +55,17 @@ def parabolic_gain_dbi(diameter_m, frequency_hz, efficiency):
     References
     ----------
     Kraus and Marhefka, *Antennas*, 3rd ed. (2002), aperture antennas.
+
+    Examples
+    --------
+    >>> round(float(parabolic_gain_dbi(3.7, 8.4e9, 0.6)), 2)  # 3.7 m dish at X band
+    48.04
     """
     ratio = np.multiply(efficiency, (np.pi * np.divide(diameter_m, wavelength_m(frequency_hz))) ** 2)
     return restore_kind(10.0 * np.log10(ratio), widest(diameter_m, frequency_hz, efficiency))
 
 
-def parabolic_diameter_m(gain_dbi, frequency_hz, efficiency):
+def parabolic_diameter_m(gain_dbi: Floats, frequency_hz: Floats, efficiency: Floats) -> FloatsOut:
     """Aperture diameter [m] that gives ``gain_dbi`` [dBi] (inverse of :func:`parabolic_gain_dbi`).
 
     References
@@ -71,7 +77,8 @@ def parabolic_diameter_m(gain_dbi, frequency_hz, efficiency):
     return restore_kind(d, widest(gain_dbi, frequency_hz, efficiency))
 
 
-def half_power_beamwidth_deg(diameter_m, frequency_hz, *, coefficient_deg=BEAMWIDTH_COEFFICIENT_DEG):
+def half_power_beamwidth_deg(diameter_m: Floats, frequency_hz: Floats, *,
+                             coefficient_deg: float = BEAMWIDTH_COEFFICIENT_DEG) -> FloatsOut:
     """Half-power (3 dB) full beamwidth theta_3dB = k lambda / D.
 
     Parameters
@@ -91,12 +98,17 @@ def half_power_beamwidth_deg(diameter_m, frequency_hz, *, coefficient_deg=BEAMWI
     References
     ----------
     Maral and Bousquet, *Satellite Communications Systems*, 5th ed., section 2.1.
+
+    Examples
+    --------
+    >>> round(float(half_power_beamwidth_deg(3.7, 8.4e9)), 3)
+    0.675
     """
     bw = coefficient_deg * wavelength_m(frequency_hz) / np.asarray(diameter_m, dtype=float)
     return restore_kind(bw, widest(diameter_m, frequency_hz))
 
 
-def pointing_loss_db(pointing_error_deg, beamwidth_deg):
+def pointing_loss_db(pointing_error_deg: Floats, beamwidth_deg: Floats) -> FloatsOut:
     """Main-lobe pointing loss 12 (theta / theta_3dB)^2.
 
     The law is stated for theta / theta_3dB <= 0.5 (:data:`POINTING_LAW_LIMIT`);
@@ -118,12 +130,18 @@ def pointing_loss_db(pointing_error_deg, beamwidth_deg):
     ----------
     ITU Radio Regulations, Resolution 553, Fig. 1; Maral and Bousquet,
     *Satellite Communications Systems*, 5th ed., section 2.1.
+
+    Examples
+    --------
+    >>> round(float(pointing_loss_db(0.1, 0.675)), 3)
+    0.263
     """
     x = np.divide(pointing_error_deg, beamwidth_deg)
     return restore_kind(12.0 * x**2, widest(pointing_error_deg, beamwidth_deg))
 
 
-def polarization_loss_db(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_deg=0.0, *, same_sense=True):
+def polarization_loss_db(tx_axial_ratio_db: Floats, rx_axial_ratio_db: Floats, tilt_difference_deg: Floats = 0.0,
+                         *, same_sense: bool = True) -> FloatsOut:
     """Polarization mismatch loss between two elliptically polarized antennas.
 
     With voltage axial ratios r1, r2 (signed: opposite senses have opposite
@@ -152,8 +170,13 @@ def polarization_loss_db(tx_axial_ratio_db, rx_axial_ratio_db, tilt_difference_d
     (polarization efficiency of two elliptical states; formula recalled from
     memory and checked here against its limits: co-polar circular 0 dB,
     circular against linear 3.01 dB, linear at tilt psi cos^2 psi).
+
+    Examples
+    --------
+    >>> round(float(polarization_loss_db(0.0, float("inf"))), 2)  # circular against linear
+    3.01
     """
-    def ratio(ar_db):
+    def ratio(ar_db: Floats) -> npt.NDArray[np.float64]:
         ar = np.asarray(ar_db, dtype=float)
         with np.errstate(over="ignore"):
             return np.power(10.0, ar / 20.0)

@@ -18,11 +18,14 @@ chapter 5 (link budget, C/N0, G/T); Recommendation ITU-R P.618-13 section 2.5
 """
 from __future__ import annotations
 
+from typing import cast
+
 import numpy as np
+import numpy.typing as npt
 
 from . import noise
 from .propagation import total_attenuation_db
-from .units import BOLTZMANN_DBW_PER_K_HZ
+from .units import BOLTZMANN_DBW_PER_K_HZ, Floats
 
 __all__ = ["BUDGET_TERMS", "RECEIVER_TERMS", "link_budget", "max_rate_bps"]
 
@@ -65,7 +68,8 @@ BUDGET_TERMS = {
 RECEIVER_TERMS = ("rx_gain_dbi", "received_power_dbw", "clear_sky_noise_temperature_k", "system_noise_temperature_k")
 
 
-def max_rate_bps(cn0_dbhz, ebn0_required_db, implementation_loss_db, required_margin_db):
+def max_rate_bps(cn0_dbhz: Floats, ebn0_required_db: Floats, implementation_loss_db: Floats,
+                 required_margin_db: Floats) -> np.float64 | npt.NDArray[np.float64]:
     """Largest information rate that still keeps the required margin (closed form).
 
     R_max = 10^((C/N0 - (Eb/N0)_req - L_impl - M_req) / 10).
@@ -89,19 +93,27 @@ def max_rate_bps(cn0_dbhz, ebn0_required_db, implementation_loss_db, required_ma
     References
     ----------
     Maral and Bousquet, *Satellite Communications Systems*, 5th ed., chapter 5.
+
+    Examples
+    --------
+    >>> round(float(max_rate_bps(80.0, 4.0, 1.0, 3.0)) / 1e6, 3)  # [Mbit/s]
+    15.849
     """
-    exponent = (np.asarray(cn0_dbhz, dtype=float) - ebn0_required_db - implementation_loss_db
-                - required_margin_db) / 10.0
+    exponent = (np.asarray(cn0_dbhz, dtype=float) - np.asarray(ebn0_required_db, dtype=float)
+                - np.asarray(implementation_loss_db, dtype=float) - np.asarray(required_margin_db, dtype=float)) / 10.0
     out = np.power(10.0, exponent)
     return np.float64(out) if np.ndim(out) == 0 else out
 
 
-def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rate_bps, ebn0_required_db,
-                rx_gain_dbi=None, clear_sky_noise_temperature_k=None, gt_dbk=None,
-                tx_line_loss_db=0.0, rx_line_loss_db=0.0, tx_pointing_loss_db=0.0, rx_pointing_loss_db=0.0,
-                gas_loss_db=0.0, cloud_loss_db=0.0, rain_loss_db=0.0, scintillation_loss_db=0.0,
-                polarization_loss_db=0.0, other_losses_db=0.0, sky_noise_increase_k=0.0,
-                implementation_loss_db=0.0, required_margin_db=0.0) -> dict[str, np.ndarray]:
+def link_budget(*, tx_power_w: Floats, tx_gain_dbi: Floats, free_space_loss_db: Floats, rate_bps: Floats,
+                ebn0_required_db: Floats, rx_gain_dbi: Floats | None = None,
+                clear_sky_noise_temperature_k: Floats | None = None, gt_dbk: Floats | None = None,
+                tx_line_loss_db: Floats = 0.0, rx_line_loss_db: Floats = 0.0, tx_pointing_loss_db: Floats = 0.0,
+                rx_pointing_loss_db: Floats = 0.0, gas_loss_db: Floats = 0.0, cloud_loss_db: Floats = 0.0,
+                rain_loss_db: Floats = 0.0, scintillation_loss_db: Floats = 0.0, polarization_loss_db: Floats = 0.0,
+                other_losses_db: Floats = 0.0, sky_noise_increase_k: Floats = 0.0,
+                implementation_loss_db: Floats = 0.0,
+                required_margin_db: Floats = 0.0) -> dict[str, np.float64 | npt.NDArray[np.float64]]:
     """Term-by-term link budget; all inputs broadcast together.
 
     The receiver is given either by its gain and clear-sky noise temperature
@@ -163,8 +175,17 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rate_bps, ebn0_r
     ----------
     Maral and Bousquet, *Satellite Communications Systems*, 5th ed., chapter 5;
     Recommendation ITU-R P.618-13 section 2.5.
+
+    Examples
+    --------
+    >>> terms = link_budget(tx_power_w=5.0, tx_gain_dbi=6.0, free_space_loss_db=180.0, rate_bps=10e6,
+    ...                     ebn0_required_db=4.0, gt_dbk=20.0)
+    >>> round(float(terms["cn0_dbhz"]), 2), round(float(terms["margin_db"]), 2)
+    (81.59, 7.59)
     """
-    f = lambda x: np.asarray(x, dtype=float)  # noqa: E731
+    def f(x: Floats) -> npt.NDArray[np.float64]:
+        return np.asarray(x, dtype=float)
+
     by_gt = gt_dbk is not None
     parts = (rx_gain_dbi is not None, clear_sky_noise_temperature_k is not None)
     if (by_gt and any(parts)) or (not by_gt and not all(parts)):
@@ -177,12 +198,16 @@ def link_budget(*, tx_power_w, tx_gain_dbi, free_space_loss_db, rate_bps, ebn0_r
     atmospheric = total_attenuation_db(gas_loss_db, cloud_loss_db, rain_loss_db, scintillation_loss_db)
     pointing = f(tx_pointing_loss_db) + f(rx_pointing_loss_db)
     losses = f(free_space_loss_db) + atmospheric + pointing + f(polarization_loss_db) + f(other_losses_db)
-    receiver = {}
-    if by_gt:
+    receiver: dict[str, np.float64 | npt.NDArray[np.float64]] = {}
+    gt: np.float64 | npt.NDArray[np.float64]
+    if gt_dbk is not None:  # by_gt
         gt = f(gt_dbk)
     else:
+        assert rx_gain_dbi is not None and clear_sky_noise_temperature_k is not None  # checked above
         t_sys = f(clear_sky_noise_temperature_k) + f(sky_noise_increase_k)
-        gt = noise.gt_dbk(f(rx_gain_dbi), t_sys, feed_loss_db=f(rx_line_loss_db))
+        # array inputs give an array (or a numpy float), never a Series
+        gt = cast("np.float64 | npt.NDArray[np.float64]",
+                  noise.gt_dbk(f(rx_gain_dbi), t_sys, feed_loss_db=f(rx_line_loss_db)))
         receiver = {
             "rx_gain_dbi": f(rx_gain_dbi),
             "received_power_dbw": eirp - losses + f(rx_gain_dbi) - f(rx_line_loss_db),

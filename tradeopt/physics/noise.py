@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import COSMIC_BACKGROUND_K, REFERENCE_TEMPERATURE_K, restore_kind, widest
+from .units import COSMIC_BACKGROUND_K, REFERENCE_TEMPERATURE_K, Floats, FloatsOut, restore_kind, widest
 
 __all__ = [
     "MEAN_RADIATING_TEMPERATURE_K",
@@ -28,7 +28,7 @@ __all__ = [
 MEAN_RADIATING_TEMPERATURE_K = 275.0
 
 
-def mean_radiating_temperature_k(surface_temperature_k):
+def mean_radiating_temperature_k(surface_temperature_k: Floats) -> FloatsOut:
     """Mean radiating temperature from the surface temperature, T_mr = 37.34 + 0.81 T_s [K].
 
     References
@@ -38,7 +38,8 @@ def mean_radiating_temperature_k(surface_temperature_k):
     return restore_kind(37.34 + 0.81 * np.asarray(surface_temperature_k, dtype=float), surface_temperature_k)
 
 
-def sky_noise_temperature_k(attenuation_db, *, mean_radiating_temperature_k=MEAN_RADIATING_TEMPERATURE_K):
+def sky_noise_temperature_k(attenuation_db: Floats, *,
+                            mean_radiating_temperature_k: Floats = MEAN_RADIATING_TEMPERATURE_K) -> FloatsOut:
     """Sky brightness temperature behind an absorbing atmosphere.
 
     Parameters
@@ -56,6 +57,11 @@ def sky_noise_temperature_k(attenuation_db, *, mean_radiating_temperature_k=MEAN
     References
     ----------
     Recommendation ITU-R P.618-14 (2023), section 3, eq. (69).
+
+    Examples
+    --------
+    >>> round(float(sky_noise_temperature_k(1.0)), 1)  # 1 dB of absorption, T_mr = 275 K
+    58.7
     """
     transmissivity = np.power(10.0, -np.asarray(attenuation_db, dtype=float) / 10.0)
     t_mr = np.asarray(mean_radiating_temperature_k, dtype=float)
@@ -63,8 +69,8 @@ def sky_noise_temperature_k(attenuation_db, *, mean_radiating_temperature_k=MEAN
     return restore_kind(t, widest(attenuation_db, mean_radiating_temperature_k))
 
 
-def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *,
-                         mean_radiating_temperature_k=MEAN_RADIATING_TEMPERATURE_K):
+def sky_noise_increase_k(attenuation_db: Floats, clear_sky_attenuation_db: Floats, *,
+                         mean_radiating_temperature_k: Floats = MEAN_RADIATING_TEMPERATURE_K) -> FloatsOut:
     """Increase of sky noise over clear sky when the absorptive loss rises.
 
     Delta T = T_sky(A) - T_sky(A_clear) [K], both from ITU-R P.618-14 eq. (69).
@@ -93,9 +99,9 @@ def sky_noise_increase_k(attenuation_db, clear_sky_attenuation_db, *,
                         widest(attenuation_db, clear_sky_attenuation_db, mean_radiating_temperature_k))
 
 
-def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperature_k, *,
-                               physical_temperature_k=REFERENCE_TEMPERATURE_K,
-                               following_temperature_k=0.0, lna_gain_db=np.inf):
+def system_noise_temperature_k(antenna_temperature_k: Floats, feed_loss_db: Floats, lna_temperature_k: Floats, *,
+                               physical_temperature_k: Floats = REFERENCE_TEMPERATURE_K,
+                               following_temperature_k: Floats = 0.0, lna_gain_db: Floats = np.inf) -> FloatsOut:
     """System noise temperature at the LNA input by the Friis cascade.
 
     T_sys = T_ant / L + T_phys (1 - 1/L) + T_LNA + T_next / G_LNA, referred to
@@ -125,6 +131,11 @@ def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperat
     ----------
     H. T. Friis, Proc. IRE 32 (1944); Maral and Bousquet, *Satellite
     Communications Systems*, 5th ed., section 5.5.
+
+    Examples
+    --------
+    >>> round(float(system_noise_temperature_k(50.0, 0.5, 60.0)), 1)  # 0.5 dB feed, 60 K LNA
+    136.1
     """
     loss = np.power(10.0, np.asarray(feed_loss_db, dtype=float) / 10.0)
     gain = np.power(10.0, np.asarray(lna_gain_db, dtype=float) / 10.0)
@@ -136,18 +147,20 @@ def system_noise_temperature_k(antenna_temperature_k, feed_loss_db, lna_temperat
                                       physical_temperature_k, following_temperature_k, lna_gain_db))
 
 
-def noise_figure_to_temperature_k(noise_figure_db, *, reference_temperature_k=REFERENCE_TEMPERATURE_K):
+def noise_figure_to_temperature_k(noise_figure_db: Floats, *,
+                                  reference_temperature_k: Floats = REFERENCE_TEMPERATURE_K) -> FloatsOut:
     """Noise figure [dB] to equivalent noise temperature T = T0 (F - 1) [K].
 
     References
     ----------
     IEEE Std 161 noise-figure definition, T0 = 290 K.
     """
-    t = reference_temperature_k * (np.power(10.0, np.asarray(noise_figure_db, dtype=float) / 10.0) - 1.0)
+    factor = np.power(10.0, np.asarray(noise_figure_db, dtype=float) / 10.0)
+    t = np.asarray(reference_temperature_k, dtype=float) * (factor - 1.0)
     return restore_kind(t, widest(noise_figure_db, reference_temperature_k))
 
 
-def gt_dbk(gain_dbi, system_noise_temperature_k, *, feed_loss_db=0.0):
+def gt_dbk(gain_dbi: Floats, system_noise_temperature_k: Floats, *, feed_loss_db: Floats = 0.0) -> FloatsOut:
     """Figure of merit G/T at the LNA input, G - L_feed - 10 log10(T_sys) [dB/K].
 
     Gain and noise are referred to one plane, the LNA input: the antenna gain
@@ -173,6 +186,11 @@ def gt_dbk(gain_dbi, system_noise_temperature_k, *, feed_loss_db=0.0):
     ----------
     Maral and Bousquet, *Satellite Communications Systems*, 5th ed., section 5.5
     (G/T referred to the receiver input: G_R / (L_FRX T)).
+
+    Examples
+    --------
+    >>> round(float(gt_dbk(47.0, 150.0, feed_loss_db=0.5)), 2)
+    24.74
     """
     g = (np.asarray(gain_dbi, dtype=float) - np.asarray(feed_loss_db, dtype=float)
          - 10.0 * np.log10(np.asarray(system_noise_temperature_k, dtype=float)))

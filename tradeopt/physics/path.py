@@ -11,12 +11,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import EARTH_RADIUS_M, SPEED_OF_LIGHT_M_PER_S, restore_kind, widest
+from .units import EARTH_RADIUS_M, SPEED_OF_LIGHT_M_PER_S, Floats, FloatsOut, restore_kind, widest
 
 __all__ = ["free_space_loss_db", "slant_range_m", "elevation_from_range_deg"]
 
 
-def free_space_loss_db(range_m, frequency_hz):
+def free_space_loss_db(range_m: Floats, frequency_hz: Floats) -> FloatsOut:
     """Free-space path loss 20 log10(4 pi d f / c).
 
     Parameters
@@ -34,12 +34,17 @@ def free_space_loss_db(range_m, frequency_hz):
     References
     ----------
     Recommendation ITU-R P.525-4 (2019), eq. (4).
+
+    Examples
+    --------
+    >>> round(float(free_space_loss_db(1000e3, 8.4e9)), 2)  # 1000 km at X band
+    170.93
     """
     loss = 20.0 * np.log10(4.0 * np.pi * np.multiply(range_m, frequency_hz) / SPEED_OF_LIGHT_M_PER_S)
     return restore_kind(loss, widest(range_m, frequency_hz))
 
 
-def slant_range_m(altitude_m, elevation_deg, *, earth_radius_m=EARTH_RADIUS_M):
+def slant_range_m(altitude_m: Floats, elevation_deg: Floats, *, earth_radius_m: float = EARTH_RADIUS_M) -> FloatsOut:
     """Slant range from a ground station to a spacecraft over a spherical Earth.
 
     d = sqrt((R + h)^2 - (R cos e)^2) - R sin e, for a station at the surface.
@@ -63,6 +68,13 @@ def slant_range_m(altitude_m, elevation_deg, *, earth_radius_m=EARTH_RADIUS_M):
     J. R. Wertz and W. J. Larson (eds.), *Space Mission Analysis and Design*,
     3rd ed. (1999), section 5.2 (law of cosines in the Earth-centre,
     station, spacecraft triangle).
+
+    Examples
+    --------
+    >>> float(slant_range_m(500e3, 90.0))  # overhead: the altitude
+    500000.0
+    >>> round(float(slant_range_m(500e3, 10.0)) / 1e3, 1)  # [km] at 10 deg elevation
+    1694.6
     """
     e = np.radians(elevation_deg)
     r = earth_radius_m
@@ -71,7 +83,8 @@ def slant_range_m(altitude_m, elevation_deg, *, earth_radius_m=EARTH_RADIUS_M):
     return restore_kind(rng, like)
 
 
-def elevation_from_range_deg(altitude_m, range_m, *, earth_radius_m=EARTH_RADIUS_M):
+def elevation_from_range_deg(altitude_m: Floats, range_m: Floats, *,
+                             earth_radius_m: float = EARTH_RADIUS_M) -> FloatsOut:
     """Elevation angle at which a spacecraft at ``altitude_m`` is seen at ``range_m``.
 
     Inverse of :func:`slant_range_m` from the same triangle:

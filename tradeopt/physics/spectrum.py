@@ -12,12 +12,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from .units import restore_kind, widest
+from .units import Floats, FloatsOut, restore_kind, widest
 
 __all__ = ["power_flux_density_dbw_m2", "pfd_in_reference_bandwidth_db", "pfd_limit_dbw_m2"]
 
 
-def power_flux_density_dbw_m2(eirp_dbw, range_m):
+def power_flux_density_dbw_m2(eirp_dbw: Floats, range_m: Floats) -> FloatsOut:
     """Power-flux density at distance ``range_m`` in free space, EIRP - 10 log10(4 pi d^2) [dB(W/m^2)].
 
     Parameters
@@ -45,7 +45,7 @@ def power_flux_density_dbw_m2(eirp_dbw, range_m):
     return restore_kind(value, widest(eirp_dbw, range_m))
 
 
-def pfd_in_reference_bandwidth_db(occupied_bandwidth_hz, reference_bandwidth_hz):
+def pfd_in_reference_bandwidth_db(occupied_bandwidth_hz: Floats, reference_bandwidth_hz: Floats) -> FloatsOut:
     """Share of the power in a reference bandwidth, 10 log10(min(1, B_ref / B_occ)) [dB], <= 0.
 
     The power is taken as spread evenly over the occupied bandwidth (a flat spectrum:
@@ -72,7 +72,8 @@ def pfd_in_reference_bandwidth_db(occupied_bandwidth_hz, reference_bandwidth_hz)
     return restore_kind(value, widest(occupied_bandwidth_hz, reference_bandwidth_hz))
 
 
-def pfd_limit_dbw_m2(arrival_angle_deg, *, low_dbw_m2, high_dbw_m2, low_angle_deg, high_angle_deg):
+def pfd_limit_dbw_m2(arrival_angle_deg: Floats, *, low_dbw_m2: float, high_dbw_m2: float, low_angle_deg: float,
+                     high_angle_deg: float) -> FloatsOut:
     """Article 21 pfd limit at an angle of arrival: flat below and above, linear in between [dB(W/m^2)].
 
     Parameters

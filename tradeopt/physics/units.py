@@ -11,8 +11,13 @@ values of the Boltzmann constant and the speed of light.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING, Any, TypeAlias
 
 import numpy as np
+import numpy.typing as npt
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 __all__ = [
     "SPEED_OF_LIGHT_M_PER_S",
@@ -28,7 +33,16 @@ __all__ = [
     "wavelength_m",
     "restore_kind",
     "widest",
+    "Floats",
+    "FloatsOut",
 ]
+
+#: What a model function takes for a quantity: a Python or numpy scalar, a sequence, a numpy array or
+#: a pandas Series (the unit is in the parameter name).
+Floats: TypeAlias = npt.ArrayLike
+#: What a model function returns: the kind of its widest input, a numpy float for scalars (never a
+#: 0-d array), else a float array or a float Series.
+FloatsOut: TypeAlias = "np.float64 | npt.NDArray[np.float64] | pd.Series[float]"
 
 #: Speed of light in vacuum [m/s], exact (SI 2019).
 SPEED_OF_LIGHT_M_PER_S = 299_792_458.0
@@ -44,12 +58,18 @@ REFERENCE_TEMPERATURE_K = 290.0
 COSMIC_BACKGROUND_K = 2.7
 
 
-def widest(*args):
-    """The argument with the most dimensions (the kind a result should take)."""
+def widest(*args: Floats) -> Floats:
+    """The argument with the most dimensions (the kind a result should take).
+
+    Examples
+    --------
+    >>> widest(1.0, [1.0, 2.0], 3.0)
+    [1.0, 2.0]
+    """
     return max(args, key=np.ndim)
 
 
-def restore_kind(value, like):
+def restore_kind(value: Floats, like: Floats) -> FloatsOut:
     """Return ``value`` in the kind of ``like``.
 
     A 0-d array becomes a numpy float; a pandas Series keeps ``like``'s index.
@@ -60,11 +80,18 @@ def restore_kind(value, like):
         The computed result.
     like : scalar, numpy.ndarray or pandas.Series
         An input whose kind the result should take.
+
+    Examples
+    --------
+    >>> type(restore_kind(np.asarray(2.0), 1.0)).__name__  # a numpy float, not a 0-d array
+    'float64'
+    >>> restore_kind([1, 2], [0.0, 0.0])
+    array([1., 2.])
     """
     try:
         import pandas as pd  # noqa: PLC0415  (local: pandas is only needed when a Series comes in)
     except ImportError:  # pragma: no cover
-        pd = None
+        pd = None  # type: ignore[assignment]
     if pd is not None and isinstance(like, pd.Series):
         return pd.Series(np.asarray(value, dtype=float), index=like.index, name=None)
     arr = np.asarray(value, dtype=float)
@@ -73,26 +100,44 @@ def restore_kind(value, like):
     return arr
 
 
-def to_db(ratio):
-    """Power ratio to decibels, 10 log10(ratio) [dB]."""
+def to_db(ratio: Floats) -> Any:
+    """Power ratio to decibels, 10 log10(ratio) [dB] (numpy's result kind).
+
+    Examples
+    --------
+    >>> float(to_db(100.0))
+    20.0
+    """
     return 10.0 * np.log10(ratio)
 
 
-def from_db(value_db):
-    """Decibels to power ratio, 10^(value_db / 10) [-]."""
+def from_db(value_db: Floats) -> Any:
+    """Decibels to power ratio, 10^(value_db / 10) [-] (numpy's result kind).
+
+    Examples
+    --------
+    >>> float(from_db(30.0))
+    1000.0
+    """
     return np.power(10.0, np.divide(value_db, 10.0))
 
 
-def watts_to_dbw(power_w):
+def watts_to_dbw(power_w: Floats) -> Any:
     """Power [W] to [dBW]."""
     return to_db(power_w)
 
 
-def dbw_to_watts(power_dbw):
+def dbw_to_watts(power_dbw: Floats) -> Any:
     """Power [dBW] to [W]."""
     return from_db(power_dbw)
 
 
-def wavelength_m(frequency_hz):
-    """Free-space wavelength c / f [m] for a frequency [Hz]."""
+def wavelength_m(frequency_hz: Floats) -> Any:
+    """Free-space wavelength c / f [m] for a frequency [Hz] (numpy's result kind).
+
+    Examples
+    --------
+    >>> round(float(wavelength_m(8.4e9)), 6)  # X band
+    0.03569
+    """
     return np.divide(SPEED_OF_LIGHT_M_PER_S, frequency_hz)

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
 
 __all__ = ["ModelRangeError", "check_range"]
 
@@ -24,7 +25,7 @@ class ModelRangeError(ValueError):
         The Recommendation or formula whose validity is exceeded.
     """
 
-    def __init__(self, parameter: str, value: float, low: float, high: float, model: str):
+    def __init__(self, parameter: str, value: float, low: float, high: float, model: str) -> None:
         self.parameter = parameter
         self.value = value
         self.low = low
@@ -36,7 +37,7 @@ class ModelRangeError(ValueError):
         )
 
 
-def check_range(parameter: str, value, low: float, high: float, model: str, *,
+def check_range(parameter: str, value: npt.ArrayLike, low: float, high: float, model: str, *,
                 low_open: bool = False) -> None:
     """Raise :class:`ModelRangeError` if any element of ``value`` is outside [low, high].
 
