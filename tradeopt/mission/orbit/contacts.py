@@ -8,7 +8,10 @@ contact while at least one site is (interval union of station visibilities).
 """
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from ...physics.validity import check_range
@@ -17,17 +20,18 @@ from .times import _as_ns, _clock, _ns_to_datetime64
 __all__ = ["contact_statistics", "merge_contacts", "network_contact_statistics"]
 
 
-def _check_passes(passes, needed):
+def _check_passes(passes: object, needed: list[str]) -> None:
     if not isinstance(passes, pd.DataFrame) or any(c not in passes.columns for c in needed):
         raise ValueError(f"passes must be a DataFrame with columns {', '.join(needed)} (the output of find_passes)")
 
 
-def _window_seconds(times, start_ns):
+def _window_seconds(times: Any, start_ns: np.int64) -> npt.NDArray[np.float64]:
     ns = _as_ns(np.asarray(times), "pass times")
     return (np.asarray(ns, dtype=np.int64) - start_ns) / 1e9
 
 
-def _merge_intervals(starts, ends):
+def _merge_intervals(starts: npt.NDArray[Any], ends: npt.NDArray[Any]) -> tuple[
+        npt.NDArray[Any], npt.NDArray[Any], npt.NDArray[np.intp], npt.NDArray[np.intp]]:
     """Union of intervals: sorted, non-overlapping (start, end) arrays and group labels."""
     order = np.argsort(starts, kind="stable")
     s, e = starts[order], ends[order]
@@ -43,7 +47,8 @@ def _merge_intervals(starts, ends):
     return m_start, m_end, group, order
 
 
-def _interval_stats(starts, ends, total_s, days):
+def _interval_stats(starts: npt.NDArray[np.float64], ends: npt.NDArray[np.float64], total_s: float,
+                    days: float) -> dict[str, float]:
     """contacts_per_day, contact_s_per_day, mean_gap_s, max_gap_s of intervals clipped to [0, total_s]."""
     s = np.clip(starts, 0.0, total_s)
     e = np.clip(ends, 0.0, total_s)
@@ -61,7 +66,7 @@ def _interval_stats(starts, ends, total_s, days):
     }
 
 
-def contact_statistics(passes, start_utc, days, n_sites):
+def contact_statistics(passes: pd.DataFrame, start_utc: Any, days: float, n_sites: int) -> pd.DataFrame:
     """Contacts per day and gaps between contacts at each site.
 
     A *gap* is a maximal stretch of the window ``[start_utc, start_utc + days]``
@@ -109,7 +114,7 @@ def contact_statistics(passes, start_utc, days, n_sites):
     return out[["contacts_per_day", "contact_s_per_day", "mean_gap_s", "max_gap_s"]]
 
 
-def merge_contacts(passes):
+def merge_contacts(passes: pd.DataFrame) -> pd.DataFrame:
     """Merge passes of all sites into network contacts (union of intervals).
 
     Overlapping or touching passes (at any site) become one contact: the
@@ -147,7 +152,7 @@ def merge_contacts(passes):
     })
 
 
-def network_contact_statistics(passes, start_utc, days):
+def network_contact_statistics(passes: pd.DataFrame, start_utc: Any, days: float) -> pd.DataFrame:
     """Contact statistics of the whole network (passes merged across sites).
 
     Same definitions as :func:`contact_statistics`, applied to

@@ -14,8 +14,10 @@ CelesTrak: line layout and the modulo-10 checksum.
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
+import numpy.typing as npt
 from sgp4.api import SGP4_ERRORS, WGS72, Satrec
 from sgp4.exporter import export_tle as _sgp4_export_tle
 
@@ -33,14 +35,15 @@ WGS72_MU_M3_PER_S2 = 398_600.8e9
 _SGP4_MODEL = "SGP4 (Vallado et al., AIAA 2006-6753)"
 
 
-def _range_error(parameter, value, low, high, model, message):
+def _range_error(parameter: str, value: float, low: float, high: float, model: str,
+                 message: str) -> ModelRangeError:
     """A :class:`ModelRangeError` with a specific one-line message."""
     err = ModelRangeError(parameter, float(value), low, high, model)
     err.args = (message,)
     return err
 
 
-def _satrec(satrec):
+def _satrec(satrec: Any) -> Satrec:
     if not isinstance(satrec, Satrec):
         raise ValueError(
             f"satrec must be an sgp4.api.Satrec, got {type(satrec).__name__}; "
@@ -49,7 +52,7 @@ def _satrec(satrec):
     return satrec
 
 
-def _ecef_m(satrec, jd, fr):
+def _ecef_m(satrec: Satrec, jd: npt.ArrayLike, fr: npt.ArrayLike) -> npt.NDArray[np.float64]:
     """SGP4 position in pseudo Earth-fixed axes [m], shape (n, 3)."""
     jd = np.ascontiguousarray(np.broadcast_to(jd, np.shape(fr)), dtype=float)
     fr = np.ascontiguousarray(fr, dtype=float)
@@ -63,16 +66,17 @@ def _ecef_m(satrec, jd, fr):
         )
     theta = _gmst1982_rad(jd, fr)
     c, s = np.cos(theta), np.sin(theta)
-    r = np.empty_like(r_km)
+    r: npt.NDArray[np.float64] = np.empty_like(r_km)
     r[:, 0] = (c * r_km[:, 0] + s * r_km[:, 1]) * 1e3
     r[:, 1] = (-s * r_km[:, 0] + c * r_km[:, 1]) * 1e3
     r[:, 2] = r_km[:, 2] * 1e3
     return r
 
 
-def satrec_from_elements(*, epoch_utc, semi_major_axis_m=None, altitude_m=None, eccentricity,
-                         inclination_deg, raan_deg, argument_of_perigee_deg, mean_anomaly_deg=0.0,
-                         bstar=0.0, satnum=99999):
+def satrec_from_elements(*, epoch_utc: Any, semi_major_axis_m: float | None = None,
+                         altitude_m: float | None = None, eccentricity: float, inclination_deg: float,
+                         raan_deg: float, argument_of_perigee_deg: float, mean_anomaly_deg: float = 0.0,
+                         bstar: float = 0.0, satnum: int = 99999) -> Satrec:
     """Build an SGP4 satellite record from mean orbital elements.
 
     Give exactly one of ``semi_major_axis_m`` and ``altitude_m``. The altitude
@@ -128,6 +132,7 @@ def satrec_from_elements(*, epoch_utc, semi_major_axis_m=None, altitude_m=None, 
     if (semi_major_axis_m is None) == (altitude_m is None):
         raise ValueError("give exactly one of semi_major_axis_m or altitude_m (mean altitude above 6378.137 km)")
     if semi_major_axis_m is None:
+        assert altitude_m is not None  # exactly one of the two, checked above
         check_range("altitude_m", altitude_m, -WGS84_EQUATORIAL_RADIUS_M, 1e10, "orbit mean altitude",
                     low_open=True)
         a_m = WGS84_EQUATORIAL_RADIUS_M + float(altitude_m)
@@ -165,13 +170,13 @@ def satrec_from_elements(*, epoch_utc, semi_major_axis_m=None, altitude_m=None, 
     return sat
 
 
-def _tle_checksum(line):
+def _tle_checksum(line: str) -> int:
     """Modulo-10 TLE checksum of columns 1-68: digits count their value, '-' counts 1."""
     total = sum(int(ch) for ch in line[:68] if ch.isdigit()) + line[:68].count("-")
     return total % 10
 
 
-def _check_tle_line(line, number):
+def _check_tle_line(line: object, number: int) -> str:
     name = f"TLE line {number}"
     if not isinstance(line, str):
         raise ValueError(f"{name} must be a string, got {type(line).__name__}")
@@ -192,7 +197,7 @@ def _check_tle_line(line, number):
     return line
 
 
-def satrec_from_tle(line1, line2):
+def satrec_from_tle(line1: str, line2: str) -> Satrec:
     """Build an SGP4 satellite record from a two-line element set, checking it first.
 
     ``sgp4`` accepts bad checksums silently; this function checks each line's
@@ -238,7 +243,7 @@ def satrec_from_tle(line1, line2):
     return sat
 
 
-def export_tle(satrec):
+def export_tle(satrec: Satrec) -> tuple[str, str]:
     """Two-line element set of an SGP4 record.
 
     Parameters

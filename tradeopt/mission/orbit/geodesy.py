@@ -9,9 +9,10 @@ D. A. Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed.
 """
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
+import numpy.typing as npt
 
 from ...physics.validity import check_range
 
@@ -28,12 +29,12 @@ _E2 = WGS84_FLATTENING * (2.0 - WGS84_FLATTENING)  # first eccentricity squared
 
 
 class _Sites(NamedTuple):
-    ecef_m: np.ndarray       # (s, 3)
-    enu_rot: np.ndarray      # (s, 3, 3), rows: east, north, up
+    ecef_m: npt.NDArray[np.float64]  # (s, 3)
+    enu_rot: npt.NDArray[np.float64]  # (s, 3, 3), rows: east, north, up
     n: int
 
 
-def _sites(sites):
+def _sites(sites: Any) -> _Sites:
     """Validate sites and return their ECEF positions and ENU rotations."""
     keys = ("latitude_deg", "longitude_deg", "altitude_m")
     try:
@@ -67,12 +68,13 @@ def _sites(sites):
     return _Sites(ecef, np.stack([east, north, up], axis=1), lat_deg.size)
 
 
-def _enu_outer(r_ecef, site):
+def _enu_outer(r_ecef: npt.NDArray[np.float64], site: _Sites) -> npt.NDArray[np.float64]:
     """Topocentric ENU [m] of positions (n, 3) from every site: shape (s, n, 3)."""
     rot_t = np.swapaxes(site.enu_rot, 1, 2)                     # (s, 3, 3)
     offset = np.matmul(site.ecef_m[:, None, :], rot_t)          # (s, 1, 3)
-    return np.matmul(r_ecef, rot_t) - offset
+    enu: npt.NDArray[np.float64] = np.matmul(r_ecef, rot_t) - offset
+    return enu
 
 
-def _elevation_deg_from_enu(enu):
+def _elevation_deg_from_enu(enu: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
     return np.degrees(np.arctan2(enu[..., 2], np.hypot(enu[..., 0], enu[..., 1])))

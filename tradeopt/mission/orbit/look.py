@@ -12,14 +12,18 @@ T. Pratt, C. Bostian and J. Allnutt, *Satellite Communications*, 2nd ed.
 from __future__ import annotations
 
 import math
-from typing import NamedTuple
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 import numpy as np
+import numpy.typing as npt
 
 from ...physics.validity import check_range
 from .elements import _ecef_m, _satrec
-from .geodesy import WGS84_EQUATORIAL_RADIUS_M, _elevation_deg_from_enu, _enu_outer, _sites
-from .times import _DAY_S, _as_ns, _jd_parts
+from .geodesy import WGS84_EQUATORIAL_RADIUS_M, _elevation_deg_from_enu, _enu_outer, _Sites, _sites
+from .times import _DAY_S, _as_ns, _Clock, _jd_parts
+
+if TYPE_CHECKING:
+    from sgp4.api import Satrec
 
 __all__ = ["GEOSTATIONARY_ALTITUDE_M", "LookAngles", "look_angles", "geostationary_look_angles",
            "deep_space_look_angles"]
@@ -42,18 +46,19 @@ class LookAngles(NamedTuple):
         Slant range [m].
     """
 
-    azimuth_deg: np.ndarray
-    elevation_deg: np.ndarray
-    range_m: np.ndarray
+    azimuth_deg: npt.NDArray[np.float64]
+    elevation_deg: npt.NDArray[np.float64]
+    range_m: npt.NDArray[np.float64]
 
 
-def _elev_outer(satrec, clock, site, t_s):
+def _elev_outer(satrec: Satrec, clock: _Clock, site: _Sites, t_s: npt.ArrayLike) -> npt.NDArray[np.float64]:
     """Elevation [deg] at window offsets t_s [s] from every site: shape (s, n)."""
     r = _ecef_m(satrec, clock.jd0, clock.fr0 + np.asarray(t_s, dtype=float) / _DAY_S)
     return _elevation_deg_from_enu(_enu_outer(r, site))
 
 
-def _elev_pairs(satrec, clock, site, t_s, site_index):
+def _elev_pairs(satrec: Satrec, clock: _Clock, site: _Sites, t_s: npt.ArrayLike,
+                site_index: npt.NDArray[np.intp]) -> npt.NDArray[np.float64]:
     """Elevation [deg] at paired (t_s [s], site_index): shape (m,)."""
     t_s = np.asarray(t_s, dtype=float)
     if t_s.size == 0:
@@ -65,13 +70,13 @@ def _elev_pairs(satrec, clock, site, t_s, site_index):
     return _elevation_deg_from_enu(enu)
 
 
-def _check_step(step_s, chunk_s):
+def _check_step(step_s: float, chunk_s: float) -> None:
     check_range("step_s", step_s, 0.0, 600.0,
                 "sampled pass search (passes shorter than a step can be missed)", low_open=True)
     check_range("chunk_s", chunk_s, float(step_s), 366.0 * _DAY_S, "chunked evaluation (at least one step)")
 
 
-def look_angles(satrec, times_utc, sites):
+def look_angles(satrec: Satrec, times_utc: Any, sites: Any) -> LookAngles:
     """Azimuth, elevation and range from ground sites to an SGP4 satellite.
 
     Not chunked: memory grows with ``n_sites * n_times``; use
@@ -112,7 +117,7 @@ def look_angles(satrec, times_utc, sites):
     return _look_from_enu(enu)
 
 
-def _look_from_enu(enu):
+def _look_from_enu(enu: npt.NDArray[np.float64]) -> LookAngles:
     e, n, u = enu[..., 0], enu[..., 1], enu[..., 2]
     horizontal = np.hypot(e, n)
     az = np.mod(np.degrees(np.arctan2(e, n)), 360.0)
@@ -121,7 +126,7 @@ def _look_from_enu(enu):
     return LookAngles(az, el, rng)
 
 
-def geostationary_look_angles(longitude_deg, sites):
+def geostationary_look_angles(longitude_deg: float, sites: Any) -> LookAngles:
     """Fixed look angles to a geostationary slot.
 
     The satellite is an ideal geostationary point: on the equator at
@@ -157,7 +162,8 @@ def geostationary_look_angles(longitude_deg, sites):
     return LookAngles(*(x[:, 0] for x in look))
 
 
-def deep_space_look_angles(range_m, elevation_deg, sites):
+def deep_space_look_angles(range_m: npt.ArrayLike, elevation_deg: npt.ArrayLike,
+                           sites: Any) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64]]:
     """Fixed geometry for a deep-space spacecraft: a user-given range and elevation.
 
     Deep-space trajectories are not propagated here: the range and the

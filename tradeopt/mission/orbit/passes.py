@@ -12,15 +12,20 @@ W. H. Press et al., *Numerical Recipes*, 3rd ed. (2007), section 10.3
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from ...physics.validity import check_range
 from .elements import _satrec
-from .geodesy import _sites
+from .geodesy import _Sites, _sites
 from .look import _check_step, _elev_outer, _elev_pairs
-from .times import _clock, _ns_to_datetime64
+from .times import _Clock, _clock, _ns_to_datetime64
+
+if TYPE_CHECKING:
+    from sgp4.api import Satrec
 
 __all__ = ["find_passes"]
 
@@ -28,11 +33,13 @@ __all__ = ["find_passes"]
 _PASS_COLUMNS = ["site_index", "start_utc", "end_utc", "max_elevation_deg", "duration_s"]
 
 
-def _refine_crossings(satrec, clock, site, site_index, ta, tb, fa, fb, threshold_deg, iterations=3):
+def _refine_crossings(satrec: Satrec, clock: _Clock, site: _Sites, site_index: npt.NDArray[np.intp],
+                      ta: npt.ArrayLike, tb: npt.ArrayLike, fa: npt.ArrayLike, fb: npt.ArrayLike,
+                      threshold_deg: float, iterations: int = 3) -> npt.NDArray[np.float64]:
     """Illinois regula falsi on el(t) - threshold inside the brackets [ta, tb] [s]."""
     ta, tb, fa, fb = (np.array(x, dtype=float) for x in (ta, tb, fa, fb))
     side = np.zeros(ta.shape, dtype=int)
-    tm = ta - fa * (tb - ta) / (fb - fa)
+    tm: npt.NDArray[np.float64] = ta - fa * (tb - ta) / (fb - fa)
     for _ in range(iterations):
         fm = _elev_pairs(satrec, clock, site, tm, site_index) - threshold_deg
         left = np.sign(fm) == np.sign(fa)
@@ -48,14 +55,16 @@ def _refine_crossings(satrec, clock, site, site_index, ta, tb, fa, fb, threshold
     return tm
 
 
-def _refine_maxima(satrec, clock, site, site_index, t_prev, t_k, t_next, e_prev, e_k, e_next, step_s,
-                   iterations=4):
+def _refine_maxima(satrec: Satrec, clock: _Clock, site: _Sites, site_index: npt.NDArray[np.intp],
+                   t_prev: npt.NDArray[np.float64], t_k: npt.NDArray[np.float64], t_next: npt.NDArray[np.float64],
+                   e_prev: npt.NDArray[np.float64], e_k: npt.NDArray[np.float64], e_next: npt.NDArray[np.float64],
+                   step_s: float, iterations: int = 4) -> npt.NDArray[np.float64]:
     """Parabolic vertex of three samples, then shrinking three-point parabolas with SGP4.
 
     Returns the best elevation evaluated [deg]: never above the true maximum.
     """
     lo, hi = 0.0, clock.total_s
-    best = np.array(e_k, dtype=float)
+    best: npt.NDArray[np.float64] = np.array(e_k, dtype=float)
     tc = np.array(t_k, dtype=float)
     interior = np.isfinite(e_prev) & np.isfinite(e_next)
     if np.any(interior):
@@ -79,7 +88,9 @@ def _refine_maxima(satrec, clock, site, site_index, t_prev, t_k, t_next, e_prev,
     return best
 
 
-def _parabola_vertex(x1, x2, x3, y1, y2, y3):
+def _parabola_vertex(x1: npt.NDArray[np.float64], x2: npt.NDArray[np.float64], x3: npt.NDArray[np.float64],
+                     y1: npt.NDArray[np.float64], y2: npt.NDArray[np.float64],
+                     y3: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
     """Abscissa of the vertex of the parabola through three points (NaN if not concave)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         a = (x2 - x1) * (y2 - y3)
@@ -91,11 +102,11 @@ def _parabola_vertex(x1, x2, x3, y1, y2, y3):
     return np.where(concave & np.isfinite(v), v, np.nan)
 
 
-def _concat(parts, dtype):
+def _concat(parts: list[npt.NDArray[Any]], dtype: type) -> npt.NDArray[Any]:
     return np.concatenate(parts) if parts else np.zeros(0, dtype=dtype)
 
 
-def _empty_passes():
+def _empty_passes() -> pd.DataFrame:
     return pd.DataFrame({
         "site_index": np.zeros(0, dtype=np.int64),
         "start_utc": np.zeros(0, dtype="datetime64[ns]"),
@@ -105,7 +116,8 @@ def _empty_passes():
     })
 
 
-def find_passes(satrec, start_utc, days, sites, min_elevation_deg, *, step_s=10.0, chunk_s=86_400.0):
+def find_passes(satrec: Satrec, start_utc: Any, days: float, sites: Any, min_elevation_deg: float, *,
+                step_s: float = 10.0, chunk_s: float = 86_400.0) -> pd.DataFrame:
     """Passes of a satellite above a minimum elevation at each site.
 
     The elevation is sampled every ``step_s`` seconds from ``start_utc``, one
@@ -169,12 +181,22 @@ def find_passes(satrec, start_utc, days, sites, min_elevation_deg, *, step_s=10.
     k_last = int(math.ceil(total / step_s - 1e-9))  # samples 0..k_last, the last one at the window end
     per_chunk = max(1, int(round(float(chunk_s) / step_s)))
 
-    def t_of(k):
-        return np.minimum(k * step_s, total)
+    def t_of(k: npt.NDArray[np.int_]) -> npt.NDArray[np.float64]:
+        t: npt.NDArray[np.float64] = np.minimum(k * step_s, total)
+        return t
 
+    # lists of per-chunk arrays, then (below) their concatenation
+    rise_site: Any
+    rise_t: Any
+    set_site: Any
+    set_t: Any
+    max_site: Any
+    max_tk: Any
+    max_el: Any
     rise_site, rise_t, set_site, set_t = [], [], [], []
     max_site, max_tk, max_el = [], [], []
-    above_first = above_last = None
+    above_first: npt.NDArray[np.bool_] | None = None
+    above_last: npt.NDArray[np.bool_] | None = None
     for k0 in range(0, k_last + 1, per_chunk):
         k1 = min(k0 + per_chunk, k_last + 1)            # chunk owns samples k0 .. k1-1
         ka, kb = max(k0 - 1, 0), min(k1 + 1, k_last + 1)  # evaluated with one sample overlap
@@ -229,6 +251,7 @@ def find_passes(satrec, start_utc, days, sites, min_elevation_deg, *, step_s=10.
     set_site, set_t = _concat(set_site, int), _concat(set_t, float)
     max_site, max_tk, max_el = _concat(max_site, int), _concat(max_tk, float), _concat(max_el, float)
 
+    assert above_first is not None and above_last is not None  # the first and last chunk always run
     frames = []
     for s in range(site.n):
         starts = np.sort(rise_t[rise_site == s])

@@ -13,9 +13,10 @@ Report #3", AIAA 2006-6753 (2006): the SGP4 epoch (days from 1949-12-31).
 """
 from __future__ import annotations
 
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from ...physics.validity import check_range
@@ -29,12 +30,12 @@ _JD_UNIX_EPOCH = 2_440_587.5  # Julian date of 1970-01-01T00:00 UTC
 _SGP4_EPOCH_NS = np.datetime64("1949-12-31T00:00:00", "ns").astype(np.int64)
 
 
-def _as_ns(value, name):
+def _as_ns(value: Any, name: str) -> Any:
     """UTC instants to int64 nanoseconds since 1970 (same shape)."""
     try:
         if np.ndim(value) == 0:
             ts = pd.Timestamp(value)
-            if ts is pd.NaT:
+            if ts is pd.NaT:  # type: ignore[comparison-overlap]  # pd.Timestamp("NaT") is NaT
                 raise ValueError("NaT")
             if ts.tzinfo is not None:
                 ts = ts.tz_convert("UTC").tz_localize(None)
@@ -53,23 +54,24 @@ def _as_ns(value, name):
         ) from exc
 
 
-def _ns_to_datetime64(ns):
+def _ns_to_datetime64(ns: npt.ArrayLike) -> npt.NDArray[np.datetime64]:
     return np.asarray(ns, dtype=np.int64).view("datetime64[ns]")
 
 
-def _jd_parts(ns):
+def _jd_parts(ns: Any) -> tuple[Any, Any]:
     """Split int64 ns since 1970 into (jd, fr) for SGP4: jd on a .5 boundary, fr in [0, 1)."""
     days = np.floor_divide(ns, _DAY_NS)
     fr = (ns - days * _DAY_NS) / _DAY_NS
     return _JD_UNIX_EPOCH + days.astype(float), fr
 
 
-def _gmst1982_rad(jd, fr):
+def _gmst1982_rad(jd: npt.ArrayLike, fr: npt.ArrayLike) -> npt.NDArray[np.float64]:
     """IAU-1982 Greenwich mean sidereal time [rad] for UT1 = UTC (Vallado, chapter 3)."""
     tut1 = ((np.asarray(jd) - 2_451_545.0) + np.asarray(fr)) / 36_525.0
     seconds = (-6.2e-6 * tut1**3 + 0.093104 * tut1**2
                + (876_600.0 * 3600.0 + 8_640_184.812866) * tut1 + 67_310.54841)
-    return np.mod(np.radians(seconds / 240.0), 2.0 * np.pi)
+    gmst: npt.NDArray[np.float64] = np.mod(np.radians(seconds / 240.0), 2.0 * np.pi)
+    return gmst
 
 
 class _Clock(NamedTuple):
@@ -80,7 +82,7 @@ class _Clock(NamedTuple):
     total_s: float
 
 
-def _clock(start_utc, days):
+def _clock(start_utc: Any, days: float) -> _Clock:
     check_range("days", days, 0.0, 36_600.0, "pass and histogram window (positive length)", low_open=True)
     start_ns = _as_ns(start_utc, "start_utc")
     jd0, fr0 = _jd_parts(np.int64(start_ns))

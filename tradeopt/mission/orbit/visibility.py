@@ -9,8 +9,10 @@ the cumulative elevation distribution: common practice.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import numpy.typing as npt
 
 from ...physics.validity import check_range
 from .elements import _satrec
@@ -18,10 +20,13 @@ from .geodesy import _sites
 from .look import _check_step, _elev_outer
 from .times import _clock
 
+if TYPE_CHECKING:
+    from sgp4.api import Satrec
+
 __all__ = ["elevation_histogram", "joint_visibility", "time_above_elevation_s"]
 
 
-def _check_edges(bin_edges_deg):
+def _check_edges(bin_edges_deg: npt.ArrayLike) -> npt.NDArray[np.float64]:
     edges = np.asarray(bin_edges_deg, dtype=float).ravel()
     if edges.size < 2 or np.any(np.diff(edges) <= 0.0):
         raise ValueError("bin_edges_deg must be at least two strictly increasing elevations, e.g. [5, 10, 20, 90]")
@@ -29,7 +34,8 @@ def _check_edges(bin_edges_deg):
     return edges
 
 
-def elevation_histogram(satrec, start_utc, days, sites, bin_edges_deg, *, step_s=10.0, chunk_s=86_400.0):
+def elevation_histogram(satrec: Satrec, start_utc: Any, days: float, sites: Any, bin_edges_deg: npt.ArrayLike, *,
+                        step_s: float = 10.0, chunk_s: float = 86_400.0) -> npt.NDArray[np.float64]:
     """Seconds per day spent in each elevation bin at each site.
 
     The window is cut into intervals of ``step_s`` (the last one shorter if
@@ -92,8 +98,9 @@ def elevation_histogram(satrec, start_utc, days, sites, bin_edges_deg, *, step_s
     return hist / float(days)
 
 
-def joint_visibility(satrec, start_utc, days, sites, bin_edges_deg, min_elevation_deg, *, step_s=10.0,
-                     chunk_s=86_400.0):
+def joint_visibility(satrec: Satrec, start_utc: Any, days: float, sites: Any, bin_edges_deg: npt.ArrayLike,
+                     min_elevation_deg: npt.ArrayLike, *, step_s: float = 10.0,
+                     chunk_s: float = 86_400.0) -> tuple[npt.NDArray[np.int_], npt.NDArray[np.float64]]:
     """Time per day spent in each joint state of all sites (which sees the spacecraft, in which bin).
 
     A state is one row of elevation-bin indices, one per site, with -1 where the
@@ -142,7 +149,7 @@ def joint_visibility(satrec, start_utc, days, sites, bin_edges_deg, min_elevatio
     n_int = int(math.ceil(total / step_s - 1e-9))
     per_chunk = max(1, int(round(float(chunk_s) / step_s)))
     n_bins = edges.size - 1
-    acc: dict = {}
+    acc: dict[tuple[int, ...], float] = {}
     for k0 in range(0, n_int, per_chunk):
         k = np.arange(k0, min(k0 + per_chunk, n_int))
         t_lo = k * step_s
@@ -163,7 +170,8 @@ def joint_visibility(satrec, start_utc, days, sites, bin_edges_deg, min_elevatio
     return bins, np.array([acc[r] for r in keys], dtype=float) / float(days)
 
 
-def time_above_elevation_s(histogram, bin_edges_deg, elevation_deg):
+def time_above_elevation_s(histogram: npt.ArrayLike, bin_edges_deg: npt.ArrayLike,
+                           elevation_deg: npt.ArrayLike) -> np.float64 | npt.NDArray[np.float64]:
     """Time per day at or above an elevation, from an elevation histogram.
 
     Inside a bin the time is assumed spread uniformly in elevation (linear
@@ -201,4 +209,5 @@ def time_above_elevation_s(histogram, bin_edges_deg, elevation_deg):
                            np.zeros(hist.shape[:-1] + (1,))], axis=-1)  # time above each edge
     i = np.clip(np.searchsorted(edges, e, side="right") - 1, 0, edges.size - 2)
     frac = (edges[i + 1] - e) / (edges[i + 1] - edges[i])
-    return tail[..., i + 1] + frac * hist[..., i]
+    above: np.float64 | npt.NDArray[np.float64] = tail[..., i + 1] + frac * hist[..., i]
+    return above

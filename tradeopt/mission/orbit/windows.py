@@ -11,8 +11,10 @@ National Imagery and Mapping Agency, TR8350.2, 3rd ed. (2000): Earth's rotation 
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from ...physics.validity import check_range
@@ -21,6 +23,9 @@ from .elements import _satrec
 from .geodesy import _sites
 from .passes import find_passes
 from .times import _DAY_NS, _DAY_S, _JD_UNIX_EPOCH, _clock, _ns_to_datetime64
+
+if TYPE_CHECKING:
+    from sgp4.api import Satrec
 
 __all__ = ["EARTH_ROTATION_RAD_PER_S", "TLE_MAX_PROPAGATION_DAYS", "GAP_WINDOW_MIN_DAYS", "GAP_WINDOW_MAX_DAYS",
            "GAP_PHASE_TOLERANCE", "GAP_WINDOW_STEP_S", "tle_epoch_offset_days", "tle_age_warning",
@@ -47,7 +52,7 @@ GAP_PHASE_TOLERANCE = 0.01
 GAP_WINDOW_STEP_S = 30.0
 
 
-def tle_epoch_offset_days(satrec, start_utc, days):
+def tle_epoch_offset_days(satrec: Satrec, start_utc: Any, days: float) -> float:
     """Largest distance between the record's epoch and a time of the window [day].
 
     Parameters
@@ -75,7 +80,8 @@ def tle_epoch_offset_days(satrec, start_utc, days):
     return float(max(abs(start_jd - epoch_jd), abs(start_jd + float(days) - epoch_jd)))
 
 
-def tle_age_warning(satrec, start_utc, days, *, max_days=TLE_MAX_PROPAGATION_DAYS):
+def tle_age_warning(satrec: Satrec, start_utc: Any, days: float, *,
+                    max_days: float = TLE_MAX_PROPAGATION_DAYS) -> str | None:
     """One-line warning when a TLE is propagated farther than ``max_days`` from its epoch, else None.
 
     Parameters
@@ -112,7 +118,8 @@ def tle_age_warning(satrec, start_utc, days, *, max_days=TLE_MAX_PROPAGATION_DAY
             "is near [contacts] start_utc")
 
 
-def ground_track_cycle_days(satrec, *, tolerance=GAP_PHASE_TOLERANCE, max_days=GAP_WINDOW_MAX_DAYS):
+def ground_track_cycle_days(satrec: Satrec, *, tolerance: float = GAP_PHASE_TOLERANCE,
+                            max_days: float = GAP_WINDOW_MAX_DAYS) -> float:
     """Days after which the ground track has passed every phase it takes within ``max_days``.
 
     With Q nodal revolutions per nodal day (secular SGP4 rates: mean motion plus
@@ -161,7 +168,7 @@ def ground_track_cycle_days(satrec, *, tolerance=GAP_PHASE_TOLERANCE, max_days=G
     return float(min(math.ceil((k + 1) * nodal_day_days - 1e-6), float(max_days)))
 
 
-def gap_window_days(satrec, days):
+def gap_window_days(satrec: Satrec, days: float) -> tuple[float, float]:
     """Window [day] for the worst gap of the storage check.
 
     ``max(days, min(max(GAP_WINDOW_MIN_DAYS, ground-track cycle), GAP_WINDOW_MAX_DAYS))``: never
@@ -185,8 +192,8 @@ def gap_window_days(satrec, days):
     return float(max(float(days), min(max(GAP_WINDOW_MIN_DAYS, cycle), GAP_WINDOW_MAX_DAYS))), cycle
 
 
-def network_worst_gap_s(satrec, start_utc, days, sites, min_elevation_deg, *, step_s=GAP_WINDOW_STEP_S,
-                        chunk_s=10 * _DAY_S):
+def network_worst_gap_s(satrec: Satrec, start_utc: Any, days: float, sites: Any, min_elevation_deg: npt.ArrayLike,
+                        *, step_s: float = GAP_WINDOW_STEP_S, chunk_s: float = 10 * _DAY_S) -> float:
     """Longest gap [s] with no site in contact (each site above its own mask) over the window.
 
     Parameters
