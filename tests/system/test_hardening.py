@@ -36,7 +36,7 @@ from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.outputs import writer
 from tradeopt.outputs.writer import MARKER_NAME, MARKER_TEXT, TEMP_PREFIX, write_results
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 BAD_DIR = ROOT / "tests" / "data" / "bad_scenarios"
 BAD_FILES = sorted(BAD_DIR.glob("*.toml"))
 DEFAULT_SCENARIO = ROOT / "tradeopt" / "data" / "default_scenario.toml"

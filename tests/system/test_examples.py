@@ -19,7 +19,7 @@ import pytest
 
 from tradeopt.cli import main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 EXAMPLES = ROOT / "examples"
 
 #: Every example scenario and what is checked about its geometry.

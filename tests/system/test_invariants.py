@@ -29,7 +29,7 @@ from tradeopt.trade.evaluate import Limits, evaluate_block, search
 from tradeopt.trade.linkcalc import compute_link
 from tradeopt.trade.space import build_band_space
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 CATALOGS = ROOT / "catalogs"
 EXAMPLE_LINK = ROOT / "examples" / "x_band_leo_downlink.toml"
 
