@@ -43,8 +43,10 @@ import stat
 import zlib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, fields
+from typing import Any, TypeAlias
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 
 from ..physics.validity import check_range
@@ -100,12 +102,16 @@ _SNR_OFFSET_DB = 1.76  # 10 log10(3/2), full-scale sine, rounded as in the textb
 _QUANTIZATION_MODEL = "ideal quantizer SNR = 6.02 N + 1.76 dB (Bennett 1948)"
 _ARQ_MODEL = "ARQ utilization (Stallings, Data and Computer Communications)"
 
+#: What the vectorized functions here return: a numpy scalar for scalar inputs, a Series when a
+#: same-length Series came in, else an ndarray; float unless the function says bool or int64.
+Restored: TypeAlias = Any
+
 
 # ---------------------------------------------------------------------------
 # helpers
 # ---------------------------------------------------------------------------
 
-def _restore(value, inputs, dtype=float):
+def _restore(value: npt.ArrayLike, inputs: tuple[object, ...], dtype: npt.DTypeLike = float) -> Restored:
     """``value`` as a numpy scalar (0-d), a Series (if a same-length Series came in) or an ndarray."""
     arr = np.asarray(value, dtype=dtype)
     if arr.ndim == 0:
@@ -117,7 +123,7 @@ def _restore(value, inputs, dtype=float):
     return arr
 
 
-def _as_float(name, value):
+def _as_float(name: str, value: object) -> npt.NDArray[np.float64]:
     try:
         return np.asarray(value, dtype=float)
     except (TypeError, ValueError):
@@ -128,7 +134,8 @@ def _as_float(name, value):
 # sampling and quantization
 # ---------------------------------------------------------------------------
 
-def sampling_rate_hz(signal_bandwidth_hz, *, sampling_factor=DEFAULT_SAMPLING_FACTOR):
+def sampling_rate_hz(signal_bandwidth_hz: npt.ArrayLike, *,
+                     sampling_factor: float = DEFAULT_SAMPLING_FACTOR) -> Restored:
     """Sampling rate for a baseband signal, f_s = k x B.
 
     Parameters
@@ -154,6 +161,11 @@ def sampling_rate_hz(signal_bandwidth_hz, *, sampling_factor=DEFAULT_SAMPLING_FA
     References
     ----------
     Nyquist (1928) and Shannon (1949): f_s >= 2 B; the 2.2 factor is common practice.
+
+    Examples
+    --------
+    >>> float(sampling_rate_hz(1e6))  # 1 MHz of signal, sampled at 2.2 B
+    2200000.0
     """
     bw = _as_float("signal_bandwidth_hz", signal_bandwidth_hz)
     check_range("signal_bandwidth_hz", bw, 0.0, np.inf, "baseband sampling", low_open=True)
@@ -162,7 +174,7 @@ def sampling_rate_hz(signal_bandwidth_hz, *, sampling_factor=DEFAULT_SAMPLING_FA
     return _restore(bw * float(sampling_factor), (signal_bandwidth_hz,))
 
 
-def is_aliased(sampling_rate_hz, signal_bandwidth_hz):
+def is_aliased(sampling_rate_hz: npt.ArrayLike, signal_bandwidth_hz: npt.ArrayLike) -> Restored:
     """True where a baseband signal sampled at ``sampling_rate_hz`` aliases (f_s < 2 B).
 
     Parameters
@@ -188,7 +200,7 @@ def is_aliased(sampling_rate_hz, signal_bandwidth_hz):
     return _restore(fs < NYQUIST_FACTOR * bw, (sampling_rate_hz, signal_bandwidth_hz), dtype=bool)
 
 
-def quantization_snr_db(bits_per_sample):
+def quantization_snr_db(bits_per_sample: npt.ArrayLike) -> Restored:
     """Signal-to-quantization-noise ratio of an ideal N-bit converter, 6.02 N + 1.76 dB.
 
     For a full-scale sine wave and a uniform quantizer with independent,
@@ -209,13 +221,18 @@ def quantization_snr_db(bits_per_sample):
     ----------
     W. R. Bennett, "Spectra of quantized signals", Bell Syst. Tech. J. 27 (1948);
     Oppenheim and Schafer, *Discrete-Time Signal Processing*, 3rd ed. (2010).
+
+    Examples
+    --------
+    >>> round(float(quantization_snr_db(8)), 2)
+    49.92
     """
     n = _as_float("bits_per_sample", bits_per_sample)
     check_range("bits_per_sample", n, 1.0, _MAX_BITS_PER_SAMPLE, _QUANTIZATION_MODEL)
     return _restore(_SNR_SLOPE_DB * n + _SNR_OFFSET_DB, (bits_per_sample,))
 
 
-def bits_for_snr(snr_db):
+def bits_for_snr(snr_db: npt.ArrayLike) -> Restored:
     """Smallest whole number of bits N with 6.02 N + 1.76 dB >= ``snr_db``.
 
     Parameters
@@ -241,7 +258,8 @@ def bits_for_snr(snr_db):
     return _restore(np.maximum(n, 1.0).astype(np.int64), (snr_db,), dtype=np.int64)
 
 
-def raw_rate_bps(*, sampling_rate_hz, bits_per_sample, channels=1, duty_cycle=1.0):
+def raw_rate_bps(*, sampling_rate_hz: npt.ArrayLike, bits_per_sample: npt.ArrayLike,
+                 channels: npt.ArrayLike = 1, duty_cycle: npt.ArrayLike = 1.0) -> Restored:
     """Average raw (uncompressed) data rate, f_s x N x channels x duty cycle.
 
     Parameters
@@ -318,7 +336,7 @@ def compression_ratios(data: bytes) -> dict[str, float]:
     }
 
 
-def measure_compression(path, *, max_bytes: int | None = None) -> dict[str, float]:
+def measure_compression(path: str | os.PathLike[str], *, max_bytes: int | None = None) -> dict[str, float]:
     """Measure lossless compression ratios on a sample file.
 
     Reads at most the first ``max_bytes`` (default :data:`COMPRESSION_SAMPLE_BYTES`,
@@ -375,7 +393,7 @@ def measure_compression(path, *, max_bytes: int | None = None) -> dict[str, floa
     return compression_ratios(data)
 
 
-def compression_sample_bytes(path, *, max_bytes: int | None = None) -> tuple[int, int]:
+def compression_sample_bytes(path: str | os.PathLike[str], *, max_bytes: int | None = None) -> tuple[int, int]:
     """How much of a sample file :func:`measure_compression` measures.
 
     Parameters
@@ -401,7 +419,8 @@ def compression_sample_bytes(path, *, max_bytes: int | None = None) -> tuple[int
 # framing and ARQ
 # ---------------------------------------------------------------------------
 
-def frame_efficiency(*, frame_data_bytes, header_bytes, trailer_bytes):
+def frame_efficiency(*, frame_data_bytes: npt.ArrayLike, header_bytes: npt.ArrayLike,
+                     trailer_bytes: npt.ArrayLike) -> Restored:
     """Fraction of a frame that carries data, data / (data + header + trailer).
 
     For a CCSDS TM transfer frame, ``header_bytes`` is the 6-octet primary
@@ -427,6 +446,11 @@ def frame_efficiency(*, frame_data_bytes, header_bytes, trailer_bytes):
     ----------
     CCSDS 132.0-B-3, *TM Space Data Link Protocol* (2021): transfer frame
     structure (primary header 6 octets, frame error control field 2 octets).
+
+    Examples
+    --------
+    >>> round(float(frame_efficiency(frame_data_bytes=1107, header_bytes=6, trailer_bytes=2)), 4)
+    0.9928
     """
     data = _as_float("frame_data_bytes", frame_data_bytes)
     head = _as_float("header_bytes", header_bytes)
@@ -437,7 +461,7 @@ def frame_efficiency(*, frame_data_bytes, header_bytes, trailer_bytes):
     return _restore(data / (data + head + tail), (frame_data_bytes, header_bytes, trailer_bytes))
 
 
-def frame_error_rate(bit_error_rate, *, frame_bits):
+def frame_error_rate(bit_error_rate: npt.ArrayLike, *, frame_bits: npt.ArrayLike) -> Restored:
     """Probability that a frame holds at least one bit error, 1 - (1 - p)^n.
 
     Assumes independent bit errors (after the channel decoder's output this is
@@ -468,7 +492,7 @@ def frame_error_rate(bit_error_rate, *, frame_bits):
     return _restore(fer, (bit_error_rate, frame_bits))
 
 
-def _normalize_scheme(scheme) -> str:
+def _normalize_scheme(scheme: object) -> str:
     key = str(scheme).strip().lower().replace("_", "-").replace(" ", "-")
     aliases = {"selective-reject": "selective-repeat", "gbn": "go-back-n", "sr": "selective-repeat",
                "saw": "stop-and-wait", "go-back-n-arq": "go-back-n"}
@@ -478,7 +502,8 @@ def _normalize_scheme(scheme) -> str:
     return key
 
 
-def arq_efficiency(scheme, *, frame_error_rate, frame_time_s, round_trip_s, window_frames=None):
+def arq_efficiency(scheme: str, *, frame_error_rate: npt.ArrayLike, frame_time_s: npt.ArrayLike,
+                   round_trip_s: npt.ArrayLike, window_frames: npt.ArrayLike | None = None) -> Restored:
     """Link utilization of an ARQ protocol with frame errors.
 
     Convention: ``a = (round_trip_s / 2) / frame_time_s`` is the **one-way**
@@ -534,8 +559,9 @@ def arq_efficiency(scheme, *, frame_error_rate, frame_time_s, round_trip_s, wind
     check_range("frame_error_rate", p, 0.0, 1.0, _ARQ_MODEL)
     check_range("frame_time_s", tf, 0.0, np.inf, _ARQ_MODEL, low_open=True)
     check_range("round_trip_s", rtt, 0.0, np.inf, _ARQ_MODEL)
-    inputs = (frame_error_rate, frame_time_s, round_trip_s)
+    inputs: tuple[object, ...] = (frame_error_rate, frame_time_s, round_trip_s)
     a = rtt / (2.0 * tf)
+    n: float | npt.NDArray[np.float64]
     if window_frames is None:
         n = np.inf
     else:
@@ -628,6 +654,7 @@ class Payload:
                 how += (f" (WARNING: below 2 x signal_bandwidth_hz = {2 * float(self.signal_bandwidth_hz):g} Hz, "
                         "the signal aliases)")
         else:
+            assert self.signal_bandwidth_hz is not None  # one of the two, checked above
             fs = float(sampling_rate_hz(self.signal_bandwidth_hz,
                                         sampling_factor=self.sampling_factor))
             how = (f"f_s = {float(self.sampling_factor):g} x {float(self.signal_bandwidth_hz):g} Hz "
@@ -659,7 +686,7 @@ class DemandResult:
     channel_bits_per_day: float
 
 
-def _to_payload(item) -> Payload:
+def _to_payload(item: object) -> Payload:
     if isinstance(item, Payload):
         return item
     if isinstance(item, Mapping):
@@ -672,8 +699,9 @@ def _to_payload(item) -> Payload:
     raise ValueError(f"a payload must be a Payload or a mapping of its fields, got {type(item).__name__}")
 
 
-def demand_chain(payloads, *, frame_efficiency=1.0, arq_efficiency=1.0, code_rate=1.0,
-                 seconds_per_day=SECONDS_PER_DAY) -> DemandResult:
+def demand_chain(payloads: Payload | Mapping[str, Any] | Sequence[Payload | Mapping[str, Any]], *,
+                 frame_efficiency: float = 1.0, arq_efficiency: float = 1.0, code_rate: float = 1.0,
+                 seconds_per_day: float = SECONDS_PER_DAY) -> DemandResult:
     """Daily data volume from instruments to the link, one table row per step.
 
     Steps (each row's ``bits_per_day`` is the previous row's divided by its
@@ -720,6 +748,15 @@ def demand_chain(payloads, *, frame_efficiency=1.0, arq_efficiency=1.0, code_rat
     ----------
     Wertz and Larson (eds.), *Space Mission Analysis and Design*, 3rd ed.
     (1999), chapter 13 (from memory); CCSDS 132.0-B-3 (framing); Stallings (ARQ).
+
+    Examples
+    --------
+    >>> result = demand_chain({"name": "imager", "raw_rate_bps": 1e6, "duty_cycle": 0.1,
+    ...                          "compression_ratio": 2.0}, code_rate=0.5)
+    >>> result.information_bits_per_day, result.channel_bits_per_day  # 8.64 Gbit raw, halved, then doubled
+    (4320000000.0, 8640000000.0)
+    >>> list(result.table["step"])
+    ['raw: imager', 'source coding: imager', 'framing', 'ARQ', 'channel code']
     """
     if isinstance(payloads, (Payload, Mapping)):
         payloads = [payloads]

@@ -33,6 +33,7 @@ import itertools
 from dataclasses import dataclass
 
 import numpy as np
+import numpy.typing as npt
 from scipy import sparse
 from scipy.optimize import Bounds, LinearConstraint, milp
 
@@ -78,7 +79,9 @@ class SiteSelection:
     message: str
 
 
-def _prepare(visibility, cost_per_year, required_volume_bits_per_day, rate_bps, slot_s, days):
+def _prepare(visibility: npt.ArrayLike, cost_per_year: npt.ArrayLike, required_volume_bits_per_day: float,
+             rate_bps: npt.ArrayLike, slot_s: npt.ArrayLike, days: float) -> tuple[
+        npt.NDArray[np.float64], npt.NDArray[np.float64], float, float]:
     vis = np.asarray(visibility)
     if vis.ndim != 2 or vis.shape[0] == 0:
         raise ValueError(f"visibility must be a boolean array of shape (n_sites, n_slots) with at "
@@ -121,13 +124,14 @@ def _prepare(visibility, cost_per_year, required_volume_bits_per_day, rate_bps, 
     return bits, cost, required_total, float(days)
 
 
-def _delivered(bits, chosen) -> float:
+def _delivered(bits: npt.NDArray[np.float64], chosen: npt.NDArray[np.bool_]) -> float:
     if not np.any(chosen):
         return 0.0
     return float(np.sum(np.max(bits[chosen], axis=0)))
 
 
-def _result(status, chosen, bits, cost, required_total, days, message):
+def _result(status: str, chosen: npt.NDArray[np.bool_], bits: npt.NDArray[np.float64],
+            cost: npt.NDArray[np.float64], required_total: float, days: float, message: str) -> SiteSelection:
     idx = tuple(int(i) for i in np.flatnonzero(chosen))
     return SiteSelection(
         status=status,
@@ -140,7 +144,8 @@ def _result(status, chosen, bits, cost, required_total, days, message):
     )
 
 
-def _trivial(bits, cost, required_total, days):
+def _trivial(bits: npt.NDArray[np.float64], cost: npt.NDArray[np.float64], required_total: float,
+             days: float) -> SiteSelection | None:
     """Results that need no solver: nothing required, or impossible even with every site."""
     n_sites = bits.shape[0]
     if required_total <= 0.0:
@@ -155,8 +160,9 @@ def _trivial(bits, cost, required_total, days):
     return None
 
 
-def select_sites(visibility, cost_per_year, required_volume_bits_per_day, rate_bps, slot_s, *,
-                 days=1.0, mip_rel_gap=0.0, time_limit_s=None) -> SiteSelection:
+def select_sites(visibility: npt.ArrayLike, cost_per_year: npt.ArrayLike, required_volume_bits_per_day: float,
+                 rate_bps: npt.ArrayLike, slot_s: npt.ArrayLike, *, days: float = 1.0, mip_rel_gap: float = 0.0,
+                 time_limit_s: float | None = None) -> SiteSelection:
     """Cheapest set of ground sites that downlinks the required volume (MILP).
 
     Parameters
@@ -197,6 +203,13 @@ def select_sites(visibility, cost_per_year, required_volume_bits_per_day, rate_b
     References
     ----------
     Wolsey, *Integer Programming* (1998), chapter 1; SciPy ``scipy.optimize.milp`` (HiGHS).
+
+    Examples
+    --------
+    >>> visibility = [[True, False, True, False], [False, True, False, True], [True, True, True, False]]
+    >>> choice = select_sites(visibility, [1.0, 2.0, 2.5], 30e6, 10e6, 1.0)  # 30 Mbit in 1 s slots at 10 Mbit/s
+    >>> choice.status, choice.site_indices, choice.cost_per_year
+    ('optimal', (2,), 2.5)
     """
     bits, cost, required_total, days = _prepare(visibility, cost_per_year,
                                                 required_volume_bits_per_day, rate_bps, slot_s, days)
@@ -277,8 +290,9 @@ def select_sites(visibility, cost_per_year, required_volume_bits_per_day, rate_b
                    f"not solved to optimality ({res.message}); raise time_limit_s or mip_rel_gap")
 
 
-def brute_force_select_sites(visibility, cost_per_year, required_volume_bits_per_day, rate_bps,
-                             slot_s, *, days=1.0) -> SiteSelection:
+def brute_force_select_sites(visibility: npt.ArrayLike, cost_per_year: npt.ArrayLike,
+                             required_volume_bits_per_day: float, rate_bps: npt.ArrayLike, slot_s: npt.ArrayLike,
+                             *, days: float = 1.0) -> SiteSelection:
     """Reference implementation of :func:`select_sites` by enumerating every subset.
 
     Among the sets that deliver the requirement it returns the cheapest
@@ -319,6 +333,7 @@ def brute_force_select_sites(visibility, cost_per_year, required_volume_bits_per
             key = (float(cost[mask].sum()), -volume, size, combo)
             if best_key is None or key < best_key:
                 best_key, best_mask = key, mask
+    assert best_mask is not None  # all sites together deliver it (checked by _trivial)
     out = _result("optimal", best_mask, bits, cost, required_total, days, "")
     return _result("optimal", best_mask, bits, cost, required_total, days,
                    f"optimal by enumeration: {len(out.site_indices)} site(s), "

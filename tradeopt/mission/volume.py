@@ -20,8 +20,9 @@ ETSI EN 302 307-1 V1.4.1 (2014), DVB-S2: adaptive coding and modulation
 from __future__ import annotations
 
 import numpy as np
+import numpy.typing as npt
 
-from ..physics.units import restore_kind
+from ..physics.units import Floats, FloatsOut, restore_kind
 from ..physics.validity import check_range
 
 __all__ = [
@@ -35,19 +36,19 @@ __all__ = [
 _MODEL = "data volume = rate x contact time"
 
 
-def _scalar_or_array(value):
+def _scalar_or_array(value: npt.ArrayLike) -> np.float64 | npt.NDArray[np.float64]:
     arr = np.asarray(value, dtype=float)
     return np.float64(arr) if arr.ndim == 0 else arr
 
 
-def _float(name, value):
+def _float(name: str, value: npt.ArrayLike) -> npt.NDArray[np.float64]:
     try:
         return np.asarray(value, dtype=float)
     except (TypeError, ValueError):
         raise ValueError(f"{name} must be a number or an array of numbers, got {value!r}") from None
 
 
-def _bool(name, value):
+def _bool(name: str, value: npt.ArrayLike) -> npt.NDArray[np.bool_]:
     arr = np.asarray(value)
     if arr.dtype != bool:
         if not np.issubdtype(arr.dtype, np.number) or not np.all((arr == 0) | (arr == 1)):
@@ -56,19 +57,20 @@ def _bool(name, value):
     return arr
 
 
-def _binned(name, value):
+def _binned(name: str, value: npt.ArrayLike) -> npt.NDArray[np.float64]:
     arr = _float(name, value)
     if arr.ndim == 0:
         raise ValueError(f"{name} must have the elevation bins on its last axis; got a scalar")
     return arr
 
 
-def _broadcast_error(exc, what):
+def _broadcast_error(exc: ValueError, what: str) -> ValueError:
     return ValueError(f"{what} do not broadcast ({exc}); put the designs on the leading axes "
                       f"and the elevation bins on the last axis of each")
 
 
-def fixed_rate_volume_bits(rate_bps, time_in_bin_s, bin_closes):
+def fixed_rate_volume_bits(rate_bps: npt.ArrayLike, time_in_bin_s: npt.ArrayLike,
+                           bin_closes: npt.ArrayLike) -> np.float64 | npt.NDArray[np.float64]:
     """Daily volume of a fixed-rate link: rate x total time in the bins where it closes.
 
     Parameters
@@ -89,6 +91,11 @@ def fixed_rate_volume_bits(rate_bps, time_in_bin_s, bin_closes):
     References
     ----------
     Wertz and Larson, *Space Mission Analysis and Design*, 3rd ed. (1999), chapter 13.
+
+    Examples
+    --------
+    >>> float(fixed_rate_volume_bits(1e6, [300.0, 600.0, 200.0], [False, True, True]))  # 800 s/day open
+    800000000.0
     """
     rate = _float("rate_bps", rate_bps)
     time = _binned("time_in_bin_s", time_in_bin_s)
@@ -105,7 +112,9 @@ def fixed_rate_volume_bits(rate_bps, time_in_bin_s, bin_closes):
     return _scalar_or_array(volume)
 
 
-def closing_elevation_volume_bits(rate_bps, time_in_bin_s, bin_lower_edges_deg, closing_elevation_deg):
+def closing_elevation_volume_bits(rate_bps: npt.ArrayLike, time_in_bin_s: npt.ArrayLike,
+                                  bin_lower_edges_deg: npt.ArrayLike,
+                                  closing_elevation_deg: npt.ArrayLike) -> np.float64 | npt.NDArray[np.float64]:
     """Daily volume of a fixed-rate link that closes above an elevation.
 
     A bin counts when its lower edge is at or above the closing elevation, so a
@@ -142,7 +151,7 @@ def closing_elevation_volume_bits(rate_bps, time_in_bin_s, bin_lower_edges_deg, 
     return fixed_rate_volume_bits(rate_bps, time_in_bin_s, closes)
 
 
-def best_closing_rate_bps(mode_rate_bps, mode_closes):
+def best_closing_rate_bps(mode_rate_bps: npt.ArrayLike, mode_closes: npt.ArrayLike) -> npt.NDArray[np.float64]:
     """Best rate that closes in each bin, over a set of modes (0 where none closes).
 
     Parameters
@@ -175,7 +184,8 @@ def best_closing_rate_bps(mode_rate_bps, mode_closes):
     return np.asarray(best, dtype=float)
 
 
-def variable_rate_volume_bits(rate_by_bin_bps, time_in_bin_s, *, bin_closes=None):
+def variable_rate_volume_bits(rate_by_bin_bps: npt.ArrayLike, time_in_bin_s: npt.ArrayLike, *,
+                              bin_closes: npt.ArrayLike | None = None) -> np.float64 | npt.NDArray[np.float64]:
     """Daily volume of an adaptive-rate link: sum over bins of time x best closing rate.
 
     With adaptive coding and modulation the link uses, in each elevation bin,
@@ -216,7 +226,7 @@ def variable_rate_volume_bits(rate_by_bin_bps, time_in_bin_s, *, bin_closes=None
     return _scalar_or_array(volume)
 
 
-def storage_needed_bits(generation_rate_bps, max_gap_s):
+def storage_needed_bits(generation_rate_bps: Floats, max_gap_s: Floats) -> FloatsOut:
     """On-board storage to hold the data generated over the longest gap, rate x gap.
 
     Assumes the recorder is emptied at each contact and no data are
@@ -239,6 +249,11 @@ def storage_needed_bits(generation_rate_bps, max_gap_s):
     References
     ----------
     Wertz and Larson, *Space Mission Analysis and Design*, 3rd ed. (1999), chapter 13 (from memory).
+
+    Examples
+    --------
+    >>> float(storage_needed_bits(2e6, 3600.0))  # 2 Mbit/s over a one-hour gap
+    7200000000.0
     """
     rate = _float("generation_rate_bps", generation_rate_bps)
     gap = _float("max_gap_s", max_gap_s)
