@@ -227,3 +227,74 @@ def test_nothing_feasible_text(tmp_path, capsys):
     assert "NO DESIGN IS FEASIBLE" in captured.out
     assert "Closest designs and what each misses" in captured.out
     assert "margin short" in captured.out
+
+
+# ----------------------------------------------------------------------------------------------
+
+#: A link that closes but a mission that does not fit: 150 Gbit/day generated and 1 Gbit of storage,
+#: while the two sites leave gaps of hours (at 1.74 Mbit/s, any gap beyond 576 s overflows 1 Gbit).
+STORAGE_TOO_SMALL = """\
+[scenario]
+name = "tern-ledger"
+availability_percent = 99.0
+required_margin_db = 3.0
+bands = ["X-DOWN"]
+
+[orbit]
+altitude_m = 600e3
+inclination_deg = 53.0
+raan_deg = 120.0
+epoch_utc = "2027-05-01T00:00:00"
+
+[contacts]
+start_utc = "2027-05-01T00:00:00"
+days = 2.0
+step_s = 20.0
+
+[requirement]
+daily_volume_bits = 150e9
+storage_bits = 1e9
+
+[options]
+ground_antennas = ["gnd-080"]
+modcods = ["DVBS2-QPSK-12"]
+
+[[sites]]
+id = "hollowmere"
+latitude_deg = 44.3
+longitude_deg = 3.7
+altitude_m = 610.0
+min_elevation_deg = 10.0
+
+[[sites]]
+id = "brinewhistle-strand"
+latitude_deg = 24.6
+longitude_deg = -16.2
+altitude_m = 30.0
+min_elevation_deg = 10.0
+"""
+
+
+@pytest.mark.slow  # one whole run with sizing and plots: about 5 to 10 s
+def test_storage_that_cannot_hold_the_worst_gap_is_reported_not_feasible(tmp_path, capsys):
+    # Catches: a storage overflow that is computed but not acted on (a best design reported as the answer,
+    # "feasible": true), a reason that does not name the storage, or an error exit for what is a result.
+    # README, "Bad input": a design that cannot close is not an error; nothing feasible exits 0 and
+    # writes "feasible": false.
+    path = tmp_path / "storage_too_small.toml"
+    path.write_text(STORAGE_TOO_SMALL, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["optimize", str(path), "--out", str(out), "--json"]) == 0
+    captured = capsys.readouterr()
+    assert captured.err == ""
+    s = json.loads(captured.out)
+    st = s["mission"]["storage"]
+    assert st["storage_bits"] == 1e9 and st["needed_bits"] > 10 * st["storage_bits"] and st["fits"] is False
+    assert s["best"] is not None  # the link closes: only the storage fails
+    assert s["feasible"] is False
+    assert "storage" in s["infeasible_reason"] and "worst gap" in s["infeasible_reason"]
+    best = json.loads((out / "best.json").read_text(encoding="utf-8"))
+    assert best["feasible"] is False
+    summary = (out / "summary.txt").read_text(encoding="utf-8")
+    assert "NOT FEASIBLE" in summary and "storage" in summary.split("NOT FEASIBLE", 1)[1].splitlines()[0]
+    assert "onboard storage DOES NOT FIT" in summary
