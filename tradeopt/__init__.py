@@ -44,6 +44,11 @@ _API = {
     # trade
     "compute_link": "tradeopt.trade.linkcalc",
     "optimize": "tradeopt.trade.optimize",
+    "TradeResult": "tradeopt.trade.result",
+    "TradeStatus": "tradeopt.trade.result",
+    "Design": "tradeopt.trade.result",
+    "MassBreakdown": "tradeopt.trade.result",
+    "VolumeSummary": "tradeopt.trade.result",
     # errors
     "InputError": "tradeopt.inputs.errors",
     "ModelRangeError": "tradeopt.physics.validity",

@@ -18,7 +18,7 @@ from matplotlib.text import Annotation
 
 from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.outputs import plots
-from tradeopt.trade.optimize import design_ids, optimize
+from tradeopt.trade.optimize import optimize
 
 # A quick invented scenario: fixed range (no propagation), three bands, one site. The S band is
 # given a 1 MHz bandwidth limit, so it has no feasible design and must be left out of legends.
@@ -72,9 +72,9 @@ def legend_handles(fig):
 def test_fixture_has_an_empty_band_and_a_feasible_best(res):
     # Catches: a fixture that no longer exercises what the tests below rely on (a band with no
     # data and a feasible best design), which would let the legend checks pass vacuously.
-    assert res.search.best is not None
-    assert res.search.best_by_band.get("S-DOWN") is None
-    assert {r["band_id"] for r in res.search.pareto} >= {"X-DOWN"}
+    assert res.best is not None
+    assert res.best_by_band.get("S-DOWN") is None
+    assert set(res.pareto["band_id"]) >= {"X-DOWN"}
 
 
 def test_pareto_shows_every_feasible_design_in_grey(res):
@@ -86,12 +86,10 @@ def test_pareto_shows_every_feasible_design_in_grey(res):
             if len(c.get_facecolor()) and np.allclose(c.get_facecolor()[0][:3], [0xb0 / 255] * 3)]
     assert len(grey) == 1
     drawn = {tuple(np.round(p, 9)) for p in grey[0].get_offsets()}
-    want = set()
-    for _, blk in res.search.designs:
-        ok = blk.reason == 0
-        want |= {tuple(np.round(p, 9)) for p in zip(blk.dc_power_w[ok], blk.mass_kg[ok])}
+    ok = res.designs[res.designs["feasible"]]
+    want = {tuple(np.round(p, 9)) for p in zip(ok["dc_power_w"], ok["mass_kg"])}
     assert drawn == want and want
-    assert f"feasible design ({res.search.designs_feasible:,})" in legend_labels(fig)
+    assert f"feasible design ({res.designs_feasible:,})" in legend_labels(fig)
 
 
 def test_pareto_colours_the_front_by_dish_diameter_with_a_colour_bar(res):
@@ -101,20 +99,19 @@ def test_pareto_colours_the_front_by_dish_diameter_with_a_colour_bar(res):
     assert len(bars) == 1
     front = [c for c in fig.axes[0].collections if c.get_array() is not None]
     got = sorted(float(v) for c in front for v in c.get_array())
-    assert got == sorted(r["ground_diameter_m"] for r in res.search.pareto)
+    assert got == sorted(res.pareto["ground_diameter_m"])
 
 
 def test_pareto_marks_and_labels_the_best_design_at_its_coordinates(res):
     # Catches: the best design not marked, labelled at the wrong point, or its IDs missing.
-    best = res.search.best
+    best = res.best
     fig = plots.pareto_figure(res)
     ax = fig.axes[0]
     notes = [t for t in ax.texts if isinstance(t, Annotation) and t.get_text().startswith("best")]
     assert len(notes) == 1
-    assert notes[0].xy == pytest.approx((best["dc_power_w"], best["mass_kg"]))
-    ids = design_ids(res.space(best["band_id"]), best["g"], best["a"], best["m"], best["c"])
+    assert notes[0].xy == pytest.approx((best.dc_power_w, best.mass_kg))
     title = ax.get_title()
-    for v in ids.values():
+    for v in best.ids:
         assert v in title
     assert "best design" in legend_labels(fig)
 
@@ -124,7 +121,7 @@ def test_pareto_legend_lists_only_bands_with_data_each_with_its_own_marker(res):
     fig = plots.pareto_figure(res)
     labels = legend_labels(fig)
     assert not any("S-DOWN" in t for t in labels)
-    bands = sorted({r["band_id"] for r in res.search.pareto})
+    bands = sorted(set(res.pareto["band_id"]))
     handles = legend_handles(fig)
     markers = [handles[f"{b} Pareto front"].get_marker() for b in bands]
     assert len(set(markers)) == len(bands)
@@ -180,7 +177,7 @@ def test_attenuation_plot_marks_the_chosen_availability_and_labels_ticks_in_avai
 
 def test_nothing_feasible_is_said_and_draws_no_colour_bar(res_infeasible):
     # Catches: a crash or an empty, unexplained plot when no design closes.
-    assert res_infeasible.search.best is None
+    assert res_infeasible.best is None
     fig = plots.pareto_figure(res_infeasible)
     assert "no feasible design" in [t.get_text() for t in fig.axes[0].texts]
     assert not [a for a in fig.axes if a.get_ylabel() == "ground dish diameter [m]"]

@@ -37,10 +37,10 @@ def _default_dict(**contacts):
 
 @pytest.fixture(scope="module")
 def trade():
-    from tradeopt.trade.optimize import optimize
+    from tradeopt.trade.optimize import run_trade
 
     sc = scenario_from_dict(_default_dict(days=2.0), file="<test>", base_dir=DATA)
-    return optimize(sc)
+    return run_trade(sc)
 
 
 def test_required_rate_times_union_contact_time_is_the_daily_volume(trade):

@@ -77,11 +77,11 @@ def _default(days: float = 1.0):
 def test_scenario_is_unchanged_after_optimize():
     # Catches: the trade writing the planned rate, the site geometry or the altitude back into the
     # Scenario (the old schedule.prepare), so a second run or another caller saw different inputs.
-    from tradeopt.trade.optimize import optimize  # noqa: PLC0415
+    from tradeopt.trade.optimize import run_trade  # noqa: PLC0415
 
     sc = _default()
     before = _snapshot(sc)
-    res = optimize(sc, keep_designs=False, sizing=False)
+    res = run_trade(sc, keep_designs=False, sizing=False)
     assert res.search.best is not None and res.mission.network is not None  # the whole path ran
     assert _snapshot(sc) == before
 

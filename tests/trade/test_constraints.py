@@ -13,7 +13,7 @@ import pytest
 
 from tradeopt.inputs.scenario import load_scenario
 from tradeopt.trade import constraints as cons
-from tradeopt.trade.optimize import optimize
+from tradeopt.trade.optimize import run_trade
 
 ROOT = Path(__file__).resolve().parents[2]
 CTX = cons.Context(band_id="S-DOWN", available_bandwidth_hz=6e6, required_margin_db=3.0, max_comm_mass_kg=10.0,
@@ -49,13 +49,13 @@ def test_a_constraint_added_to_the_table_is_honoured_everywhere(monkeypatch):
     # Bug caught: a consumer (search, counts, reasons, closest misses, dish curve) with its own copy of
     # the constraints, so that a new constraint is silently ignored somewhere.
     scenario = load_scenario(ROOT / "examples" / "geostationary_link.toml")
-    base = optimize(scenario, sizing=True)
+    base = run_trade(scenario, sizing=True)
     cap_w = float(np.median(np.concatenate([br.dc_power_w for _, br in base.search.designs])))
     extra = cons.Constraint(6, "dc_cap", "dc_power_w", cap_w, True, 0.0, True, "W", 1.0, "%.1f",
                             "DC power {value} W above the cap of {limit} W by {excess} W",
                             "over the DC cap by {excess} W", 5)
     monkeypatch.setattr(cons, "CONSTRAINTS", cons.CONSTRAINTS + (extra,))
-    res = optimize(scenario, sizing=True)
+    res = run_trade(scenario, sizing=True)
     assert res.search.reason_counts["dc_cap"] > 0
     assert sum(res.search.reason_counts.values()) == res.search.designs_evaluated
     n_hit = 0

@@ -47,7 +47,7 @@ from tradeopt.inputs.linkfile import link_spec_from_dict
 from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.trade.evaluate import search
 from tradeopt.trade.linkcalc import compute_link
-from tradeopt.trade.optimize import budget_of_design, design_ids, optimize
+from tradeopt.trade.optimize import budget_of_design, design_ids, run_trade
 
 ROOT = Path(__file__).resolve().parents[2]
 CATALOGS = ROOT / "catalogs"
@@ -282,7 +282,7 @@ def check_case(case: dict) -> dict:
         write_catalog(folder, case)
         catalog = load_catalog(folder)
         scenario = scenario_from_dict(case["scenario"], file="random.toml", catalog=catalog)
-        res = optimize(scenario, sizing=False)
+        res = run_trade(scenario, sizing=False)
         brute = brute_force(case, catalog)
 
         # Same design count and same count of feasible designs.

@@ -17,7 +17,7 @@ from tradeopt.mission import orbit as orb
 from tradeopt.outputs.report import build_files, summary_text
 from tradeopt.plan import contacts as plan_contacts
 from tradeopt.plan import mission as plan_mission
-from tradeopt.trade.optimize import optimize
+from tradeopt.trade.optimize import optimize, run_trade
 
 GEO_TOML = """\
 [scenario]
@@ -126,12 +126,12 @@ def test_geostationary_margin_csv_is_written_at_the_real_elevation(geo, tmp_path
     site = geo.scenario.sites[0]
     look = orb.geostationary_look_angles(10.0, {"latitude_deg": [45.0], "longitude_deg": [12.0],
                                                 "altitude_m": [300.0]})
-    rows = geo.elevation_margin
+    rows = geo.margin_vs_elevation.to_dict("records")
     assert [r["site_id"] for r in rows] == [site.id]  # one point per required site and band
     assert rows[0]["elevation_deg"] == pytest.approx(float(look.elevation_deg[0]), abs=1e-9)
     assert abs(rows[0]["elevation_deg"] - site.min_elevation_deg) > 20.0  # about 38 deg against a 10 deg mask
     # The point is the best design's margin at that site, as the term-by-term budget gives it.
-    assert rows[0]["margin_db"] == pytest.approx(geo.best_budgets[site.id]["margin_db"], abs=1e-6)
+    assert rows[0]["margin_db"] == pytest.approx(geo.budget(site.id)["margin_db"], abs=1e-6)
     files = build_files(geo, str(tmp_path), plots=False)
     assert "margin_vs_elevation.csv" in files
 
@@ -140,7 +140,7 @@ def test_geostationary_attenuation_is_at_the_real_elevation(geo):
     # Catches: attenuation rows computed at the mask (site.min_elevation_deg) for a slot that does not move.
     for site in geo.scenario.sites:
         el = geo.mission.geometry.sites[site.id].elevation_deg
-        rows = [r for r in geo.attenuation if r["site_id"] == site.id]
+        rows = geo.attenuation[geo.attenuation["site_id"] == site.id].to_dict("records")
         assert rows and all(r["elevation_deg"] == pytest.approx(el) for r in rows)
         assert el != pytest.approx(site.min_elevation_deg)
 
@@ -180,7 +180,7 @@ def test_contacts_text_and_json_say_continuous_for_geostationary(tmp_path, capsy
 def test_fixed_range_uses_the_mask_and_says_so():
     # Catches: a fixed-range scenario silently using an elevation it does not give. With no site
     # elevation, the mask is the elevation used, and a note says so.
-    res = optimize(_scenario(RANGE_TOML), keep_designs=False)
+    res = run_trade(_scenario(RANGE_TOML), keep_designs=False)
     assert any("fixed range" in n and "min_elevation_deg" in n for n in res.notes)
     assert {r["elevation_deg"] for r in res.attenuation} == {12.0}
     first = res.elevation_margin[0]

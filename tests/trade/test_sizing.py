@@ -25,7 +25,8 @@ from tradeopt.inputs.linkfile import link_spec_from_dict
 from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.outputs.report import build_files
 from tradeopt.trade.linkcalc import compute_link
-from tradeopt.trade.optimize import optimize
+from tradeopt.trade.assemble import assemble
+from tradeopt.trade.optimize import run_trade
 from tradeopt.trade.sizing import dish_model, min_dish_diameter_m
 
 SCENARIO = """\
@@ -68,8 +69,8 @@ min_elevation_deg = 15.0
 @pytest.fixture(scope="module")
 def sized():
     scenario = scenario_from_dict(tomllib.loads(SCENARIO), file="umber-wren.toml")
-    res = optimize(scenario, sizing=True)
-    files = build_files(res, "unused", plots=False)
+    res = run_trade(scenario, sizing=True)
+    files = build_files(assemble(res), "unused", plots=False)
     read = lambda name: pd.read_csv(io.StringIO(files[name]), comment="#")  # noqa: E731
     space = res.space("X-DOWN")
     return scenario, res, space, dish_model(scenario, space), read("dish_sizing.csv"), read("power_sizing.csv")
@@ -162,10 +163,10 @@ def test_large_space_leaves_designs_csv_out_but_keeps_the_answer():
     # Memory and disk stay bounded: beyond the detail limit every design is still evaluated
     # (same best design and counts), only the per-design table is left out, and a note says so.
     from tradeopt.inputs.scenario import load_scenario
-    from tradeopt.trade.optimize import optimize
+    from tradeopt.trade.optimize import run_trade
 
-    full = optimize(load_scenario(None), sizing=False)
-    capped = optimize(load_scenario(None), sizing=False, designs_csv_max=100)
+    full = run_trade(load_scenario(None), sizing=False)
+    capped = run_trade(load_scenario(None), sizing=False, designs_csv_max=100)
     assert capped.search.designs == [] and full.search.designs
     assert capped.search.designs_evaluated == full.search.designs_evaluated
     assert capped.search.designs_feasible == full.search.designs_feasible

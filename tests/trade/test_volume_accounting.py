@@ -17,7 +17,7 @@ from pathlib import Path
 import pytest
 
 from tradeopt.inputs.scenario import scenario_from_dict
-from tradeopt.trade.optimize import optimize
+from tradeopt.trade.optimize import run_trade
 
 ROOT = Path(__file__).resolve().parents[2]
 DAY_S = 86_400.0
@@ -33,7 +33,7 @@ def _run(data: dict, base_dir: Path | None = None):
     if base_dir is None:
         base_dir = Path(str(resources.files("tradeopt.data")))
     scenario = scenario_from_dict(copy.deepcopy(data), file="volume-test.toml", base_dir=base_dir)
-    return optimize(scenario, sizing=False, keep_designs=False)
+    return run_trade(scenario, sizing=False, keep_designs=False)
 
 
 def _check_invariants(v: dict) -> None:

@@ -34,7 +34,7 @@ _RC = {"svg.hashsalt": "tradeopt", "font.size": 9, "figure.dpi": 110}
 
 
 def _style(res, band_id: str) -> dict:
-    letter = {s.band_id: s.band for s in res.spaces}.get(band_id)
+    letter = dict(zip(res.bands["band_id"], res.bands["band"])).get(band_id)
     return BAND_STYLE.get(letter, _OTHER_STYLE)
 
 
@@ -58,20 +58,18 @@ def _feasible_points(res):
     """Distinct (DC power [W], mass [kg]) of every feasible evaluated design, or None if not kept."""
     import numpy as np  # noqa: PLC0415
 
-    if not res.search.designs:
+    if res.designs is None:
         return None
-    chunks = [np.column_stack([blk.dc_power_w[blk.reason == 0], blk.mass_kg[blk.reason == 0]])
-              for _, blk in res.search.designs]
-    pts = np.concatenate(chunks) if chunks else np.empty((0, 2))
-    return np.unique(pts, axis=0)
+    ok = res.designs[res.designs["feasible"].astype(bool)]
+    return np.unique(ok[["dc_power_w", "mass_kg"]].to_numpy(float).reshape(-1, 2), axis=0)
 
 
 def _diameter_norm(res):
     """Colour scale of the ground dish diameter [m]: the catalog's range over the scenario's bands."""
     from matplotlib.colors import Normalize  # noqa: PLC0415
 
-    d = [float(x) for s in res.spaces for x in s.ground["diameter_m"]]
-    d += [float(r["ground_diameter_m"]) for r in res.search.pareto]
+    d = [] if res.designs is None else [float(x) for x in res.designs["ground_diameter_m"]]
+    d += [float(x) for x in res.pareto["ground_diameter_m"]]
     lo, hi = (min(d), max(d)) if d else (0.0, 1.0)
     if hi - lo < 1e-9:
         lo, hi = lo - 0.5, hi + 0.5
@@ -83,7 +81,7 @@ def pareto_figure(res):
 
     Parameters
     ----------
-    res : tradeopt.trade.optimize.TradeResult
+    res : tradeopt.trade.result.TradeResult
         A finished trade.
 
     Returns
@@ -95,8 +93,6 @@ def pareto_figure(res):
     from matplotlib.cm import ScalarMappable  # noqa: PLC0415
     from matplotlib.lines import Line2D  # noqa: PLC0415
 
-    from ..trade.optimize import design_ids  # noqa: PLC0415
-
     plt = _plt()
     fig, ax = plt.subplots(figsize=(7.6, 5.6), layout="constrained")
     handles = []
@@ -104,11 +100,11 @@ def pareto_figure(res):
     if cloud is not None and len(cloud):
         ax.scatter(cloud[:, 0], cloud[:, 1], s=16, c=_GREY, marker="o", linewidths=0, zorder=1)
         handles.append(Line2D([], [], linestyle="none", marker="o", markersize=4, color=_GREY,
-                              label=f"feasible design ({res.search.designs_feasible:,})"))
-    elif res.search.designs_feasible:
+                              label=f"feasible design ({res.designs_feasible:,})"))
+    elif res.designs_feasible:
         ax.text(0.01, 0.01, "feasible designs not drawn (space too large to keep)", transform=ax.transAxes,
                 fontsize=7, color="0.35")
-    pts = res.search.pareto
+    pts = res.pareto.to_dict("records")
     norm = _diameter_norm(res)
     if pts:
         for band_id in sorted({r["band_id"] for r in pts}):
@@ -122,10 +118,13 @@ def pareto_figure(res):
         fig.colorbar(ScalarMappable(norm=norm, cmap=_DIAMETER_CMAP), ax=ax, label="ground dish diameter [m]")
     else:
         ax.text(0.5, 0.5, "no feasible design", ha="center", va="center", transform=ax.transAxes)
-    best = res.search.best
-    if best is not None:
-        space = res.space(best["band_id"])
-        ids = design_ids(space, best["g"], best["a"], best["m"], best["c"])
+    b = res.best
+    if b is not None:
+        ids = {"band_id": b.band_id, "ground_antenna_id": b.ground_antenna_id,
+               "spacecraft_antenna_id": b.spacecraft_antenna_id, "amplifier_id": b.amplifier_id,
+               "modcod_id": b.modcod_id}
+        best = {"dc_power_w": b.dc_power_w, "mass_kg": b.mass_kg, "ground_diameter_m": b.ground_diameter_m,
+                "margin_db": b.margin_db}
         ax.scatter([best["dc_power_w"]], [best["mass_kg"]], s=320, facecolors="none", edgecolors="black",
                    linewidths=1.8, marker="o", zorder=4)
         handles.append(Line2D([], [], linestyle="none", marker="o", markersize=12, markerfacecolor="none",
@@ -163,7 +162,7 @@ def dish_curve_figure(res):
 
     Parameters
     ----------
-    res : tradeopt.trade.optimize.TradeResult
+    res : tradeopt.trade.result.TradeResult
         A finished trade.
 
     Returns
@@ -178,20 +177,26 @@ def dish_curve_figure(res):
     fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(10.0, 4.4), layout="constrained")
     empty = []
     knee_shown = False
-    for band_id, curve in res.curves.items():
-        d = np.asarray(curve["diameter_m"], dtype=float)
-        if not np.isfinite(np.asarray(curve["best_mass_kg"], dtype=float)).any():
+    import pandas as pd  # noqa: PLC0415
+
+    bands = list(dict.fromkeys(res.dish_curve["band_id"])) if len(res.dish_curve) else []
+    for band_id in bands:
+        rows = res.dish_curve[res.dish_curve["band_id"] == band_id]
+        d = rows["ground_diameter_m"].to_numpy(float)
+        values = {k: pd.to_numeric(rows[k], errors="coerce").to_numpy(float) for k in ("best_mass_kg",
+                                                                                        "best_dc_power_w")}
+        if not np.isfinite(values["best_mass_kg"]).any():
             empty.append(band_id)
             continue
         st = _style(res, band_id)
         every = max(1, d.size // 8)
         for ax, key in ((ax1, "best_mass_kg"), (ax2, "best_dc_power_w")):
-            ax.plot(d, curve[key], drawstyle="steps-post", label=band_id, markevery=every, markersize=5, **st)
-        if curve["knee_diameter_m"] is not None:
-            k = curve["knee_diameter_m"]
-            i = int(np.argmin(np.abs(d - k)))
+            ax.plot(d, values[key], drawstyle="steps-post", label=band_id, markevery=every, markersize=5, **st)
+        knee = np.flatnonzero(rows["is_knee"].to_numpy(bool))
+        if knee.size:
+            i = int(knee[0])
             for ax, key in ((ax1, "best_mass_kg"), (ax2, "best_dc_power_w")):
-                ax.plot([k], [curve[key][i]], marker="D", markersize=8, color="white", markeredgecolor="black",
+                ax.plot([d[i]], [values[key][i]], marker="D", markersize=8, color="white", markeredgecolor="black",
                         markeredgewidth=1.4, linestyle="none", zorder=5)
             knee_shown = True
     for ax, label in ((ax1, "optimum comm mass [kg]"), (ax2, "DC power of that design [W]")):
@@ -205,7 +210,7 @@ def dish_curve_figure(res):
                                   label="knee: a larger dish improves the optimum by at most 2 %"))
         if handles:
             ax.legend(handles=handles, fontsize=8)
-    if not res.curves or len(empty) == len(res.curves):
+    if not bands or len(empty) == len(bands):
         ax1.text(0.5, 0.5, "no feasible design", ha="center", va="center", transform=ax1.transAxes)
     note = f"\n(nothing closes at any diameter: {', '.join(empty)})" if empty else ""
     fig.suptitle(f"{res.scenario.name}: dish-size curve, optimum design at each ground dish diameter{note}")
@@ -224,7 +229,7 @@ def margin_figure(res):
 
     plt = _plt()
     fig, ax = plt.subplots(figsize=(7.2, 4.8), layout="constrained")
-    rows = [r for r in res.elevation_margin if np.isfinite(r["margin_db"])]
+    rows = [r for r in res.margin_vs_elevation.to_dict("records") if np.isfinite(r["margin_db"])]
     sites = sorted({r["site_id"] for r in rows})
     for band_id in sorted({r["band_id"] for r in rows}):
         st = _style(res, band_id)
@@ -261,7 +266,7 @@ def attenuation_figure(res):
 
     plt = _plt()
     fig, ax = plt.subplots(figsize=(7.2, 4.8), layout="constrained")
-    rows = [r for r in res.attenuation if np.isfinite(r["total_db"])]
+    rows = [r for r in res.attenuation.to_dict("records") if np.isfinite(r["total_db"])]
     sites = sorted({r["site_id"] for r in rows})
     for band_id in sorted({r["band_id"] for r in rows}):
         st = _style(res, band_id)
@@ -294,7 +299,7 @@ def trade_plots(res, *, software: str) -> dict[str, bytes]:
 
     Parameters
     ----------
-    res : tradeopt.trade.optimize.TradeResult
+    res : tradeopt.trade.result.TradeResult
         A finished trade.
     software : str
         Text of the PNG ``Software`` field [-] (versions; no time stamp, so output is reproducible).

@@ -14,10 +14,7 @@ import json
 
 import numpy as np
 
-from ..trade.optimize import design_ids, design_link_dict, misses_text, reason_text
-from ..trade.constraints import reason_texts
-from ..trade.evaluate import context
-from ..trade.sizing import KNEE_FRACTION
+from ..trade.result import KNEE_FRACTION, Design, TradeResult, TradeStatus
 from .provenance import CSV_FLOAT_FORMAT, clean_for_json, versions
 from .tables import budget_record
 
@@ -62,74 +59,37 @@ def _version_line(ver: dict) -> str:
     return f"tradeopt {ver['tradeopt']} | itur {ver['itur']} | {recs}"
 
 
-def _design_row(res, space, rec) -> dict:
-    row = design_ids(space, rec["g"], rec["a"], rec["m"], rec["c"])
-    row.update({"ground_diameter_m": rec["ground_diameter_m"], "mass_kg": rec["mass_kg"],
-                "dc_power_w": rec["dc_power_w"], "margin_db": rec["margin_db"],
-                "occupied_bandwidth_hz": rec["bandwidth_hz"], "feasible": rec["reason"] == 0,
-                "reason": reason_text(space, rec, res.limits)})
-    return row
+def design_record(d: Design) -> dict:
+    """A design as the JSON summary and best.json give it."""
+    mb = d.mass_breakdown
+    return {"band": d.band, "band_id": d.band_id, "ground_antenna": d.ground_antenna_id,
+            "spacecraft_antenna": d.spacecraft_antenna_id, "amplifier": d.amplifier_id, "modcod": d.modcod_id,
+            "mass_kg": d.mass_kg, "dc_power_w": d.dc_power_w, "margin_db": d.margin_db, "rate_bps": d.rate_bps,
+            "occupied_bandwidth_hz": d.occupied_bandwidth_hz, "ground_diameter_m": d.ground_diameter_m,
+            "limiting_site": d.limiting_site_id,
+            "mass_breakdown_kg": {"antenna": mb.antenna_kg, "amplifier": mb.amplifier_kg,
+                                  "power_system": mb.power_system_kg}}
 
 
-def _reason_texts(res, space, br) -> np.ndarray:
-    """The ``reason`` column; the same text as :func:`tradeopt.trade.optimize.reason_text`."""
-    values = {"bandwidth_hz": br.bandwidth_hz, "margin_db": br.margin_db, "pfd_excess_db": br.pfd_excess_db,
-              "mass_kg": br.mass_kg, "dc_power_w": br.dc_power_w}
-    sites = np.asarray(space.site_terms.site_ids, dtype=object)[space.limiting_site_g[br.g]]
-    return reason_texts(br.reason, values, br.shortfall, context(space, res.limits), sites)
+def _closest_records(res: TradeResult, n: int = 5) -> list[dict]:
+    c = res.closest.sort_values("overall_rank").head(n)
+    return c.drop(columns=["n_broken", "overall_rank"]).to_dict("records")
 
 
-def _designs_table(res):
-    import pandas as pd  # noqa: PLC0415
-
-    frames = []
-    for space, br in res.search.designs:
-        ids = {
-            "band_id": np.full(br.g.size, space.band_id, dtype=object),
-            "ground_antenna_id": space.ground["ground_antenna_id"].to_numpy(object)[br.g],
-            "spacecraft_antenna_id": space.craft_antennas["spacecraft_antenna_id"].to_numpy(object)[br.a],
-            "amplifier_id": space.amplifiers["amplifier_id"].to_numpy(object)[br.m],
-            "modcod_id": space.modcods["modcod_id"].to_numpy(object)[br.c],
-            "ground_diameter_m": space.ground["diameter_m"].to_numpy(float)[br.g],
-            "mass_kg": br.mass_kg, "dc_power_w": br.dc_power_w, "margin_db": br.margin_db,
-            "occupied_bandwidth_hz": br.bandwidth_hz, "feasible": br.reason == 0,
-        }
-        reasons = _reason_texts(res, space, br)
-        ids["reason"] = reasons
-        frames.append(pd.DataFrame(ids))
-    if not frames:
-        return pd.DataFrame()
-    return pd.concat(frames, ignore_index=True)
-
-
-def summary_dict(res, results_dir: str) -> dict:
+def summary_dict(res: TradeResult, results_dir: str) -> dict:
     """The JSON summary printed by ``tradeopt optimize --json``."""
-    best = res.search.best
-    out = {"scenario": res.scenario.name, "objective": res.objective, "feasible": best is not None,
-           "designs_evaluated": res.search.designs_evaluated, "designs_feasible": res.search.designs_feasible,
-           "results_dir": results_dir, "best": None, "best_by_band": {}, "closest": [],
-           "mission": mission_record(res)}
-    if res.search.best is not None and not res.feasible:
-        out["feasible"] = False
-        st = out["mission"].get("storage", {})
-        out["infeasible_reason"] = (f"onboard storage {st.get('storage_bits', 0) / 1e9:.4g} Gbit cannot hold the "
-                                    f"{st.get('needed_bits', 0) / 1e9:.4g} Gbit generated during the worst gap")
-    if best is not None:
-        space = res.space(best["band_id"])
-        out["best"] = _best_record(res, space, best)
-    for space in res.spaces:
-        rec = res.search.best_by_band.get(space.band_id)
-        out["best_by_band"][space.band_id] = None if rec is None else _best_record(res, space, rec)
-    if best is None:
-        allc = [(space, r) for space in res.spaces for r in res.search.closest_by_band.get(space.band_id, [])]
-        req = res.limits.required_margin_db
-        allc.sort(key=lambda t: (t[1]["n_broken"], max(0.0, req - t[1]["margin_db"]), t[1]["_key"]))
-        out["closest"] = [dict(_design_row(res, space, r), misses=misses_text(space, r, res.limits))
-                          for space, r in allc[:5]]
+    out = {"scenario": res.scenario.name, "objective": res.objective, "feasible": res.success,
+           "status": res.status.name, "message": res.message,
+           "designs_evaluated": res.designs_evaluated, "designs_feasible": res.designs_feasible,
+           "results_dir": results_dir, "best": None if res.best is None else design_record(res.best),
+           "best_by_band": {b: None if d is None else design_record(d) for b, d in res.best_by_band.items()},
+           "closest": [] if res.best is not None else _closest_records(res), "mission": mission_record(res)}
+    if res.status == TradeStatus.MISSION_UNMET:
+        out["infeasible_reason"] = res.message.removeprefix("a design closes, but ")
     return out
 
 
-def mission_record(res) -> dict:
+def mission_record(res: TradeResult) -> dict:
     """Rate source, daily volume, contact time, storage check, volume gains and network choice."""
     m = res.mission
     out = {"rate_bps": getattr(m, "rate_bps", None), "rate_source": getattr(m, "rate_source", "given")}
@@ -140,35 +100,15 @@ def mission_record(res) -> dict:
         out["contact_s_per_day"] = m.contact_s_per_day
     if m.storage is not None:
         out["storage"] = dataclasses.asdict(m.storage)
-    if res.volume:
-        out["volume"] = {k: v for k, v in res.volume.items() if k != "bin_edges_deg"}
+    if res.volume_summary is not None:
+        vol = {k: v for k, v in dataclasses.asdict(res.volume_summary).items() if k != "bin_edges_deg"}
+        vol["sites"] = res.volume.to_dict("records")
+        out["volume"] = vol
     if m.network is not None:
         out["network"] = dataclasses.asdict(m.network)
     if m.contacts is not None:
         out["visibility"] = "continuous" if m.contacts.kind == "geostationary" else "passes"
     return out
-
-
-def _best_record(res, space, rec) -> dict:
-    ids = design_ids(space, rec["g"], rec["a"], rec["m"], rec["c"])
-    return {"band": space.band, "band_id": space.band_id, "ground_antenna": ids["ground_antenna_id"],
-            "spacecraft_antenna": ids["spacecraft_antenna_id"], "amplifier": ids["amplifier_id"],
-            "modcod": ids["modcod_id"], "mass_kg": rec["mass_kg"], "dc_power_w": rec["dc_power_w"],
-            "margin_db": rec["margin_db"], "rate_bps": space.rate_bps,
-            "occupied_bandwidth_hz": rec["bandwidth_hz"], "ground_diameter_m": rec["ground_diameter_m"],
-            "limiting_site": space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])],
-            "mass_breakdown_kg": mass_breakdown_kg(space, rec)}
-
-
-def mass_breakdown_kg(space, rec) -> dict:
-    """Comm mass of a design split into antenna, amplifier and power system (generation and storage) [kg].
-
-    The parts are the catalog masses and the rest of the search's own total (``power_mass_kg_per_w`` x DC
-    power), so they add up to ``mass_kg`` exactly.
-    """
-    antenna = float(space.mass_a[rec["a"]])
-    amplifier = float(space.amplifiers["mass_kg"].iloc[rec["m"]])
-    return {"antenna": antenna, "amplifier": amplifier, "power_system": rec["mass_kg"] - antenna - amplifier}
 
 
 def summary_text(res, results_dir: str) -> str:
@@ -200,34 +140,33 @@ def summary_text(res, results_dir: str) -> str:
             lines.append(f"    {r['band_id']} {r['ground_antenna_id']} + {r['spacecraft_antenna_id']} + "
                          f"{r['amplifier_id']} + {r['modcod_id']}: {r['misses']}")
     lines.append("  best of each band:")
-    for space in res.spaces:
-        rec = res.search.best_by_band.get(space.band_id)
-        if rec is None:
-            closest = res.search.closest_by_band.get(space.band_id) or []
-            if closest:
-                c0 = closest[0]
-                ids = design_ids(space, c0["g"], c0["a"], c0["m"], c0["c"])
-                why = (f"{ids['ground_antenna_id']} + {ids['spacecraft_antenna_id']} + {ids['amplifier_id']} + "
-                       f"{ids['modcod_id']}: {misses_text(space, c0, res.limits)}")
+    for band_id, d in res.best_by_band.items():
+        if d is None:
+            near = res.closest[res.closest["band_id"] == band_id]
+            if len(near):
+                c0 = near.iloc[0]
+                why = (f"{c0['ground_antenna_id']} + {c0['spacecraft_antenna_id']} + {c0['amplifier_id']} + "
+                       f"{c0['modcod_id']}: {c0['misses']}")
             else:
                 why = "no designs"
-            lines.append(f"    {space.band_id:<8} none feasible; closest: {why}")
+            lines.append(f"    {band_id:<8} none feasible; closest: {why}")
         else:
-            ids = design_ids(space, rec["g"], rec["a"], rec["m"], rec["c"])
-            lines.append(f"    {space.band_id:<8} {ids['ground_antenna_id']} + {ids['spacecraft_antenna_id']} + "
-                         f"{ids['amplifier_id']} + {ids['modcod_id']}: margin {rec['margin_db']:.2f} dB, "
-                         f"{rec['mass_kg']:.2f} kg, {rec['dc_power_w']:.1f} W")
-    for band_id, curve in res.curves.items():
-        if curve["knee_diameter_m"] is not None:
-            end = float(curve["diameter_m"][-1])
-            if curve["knee_diameter_m"] >= end:
-                lines.append(f"  {band_id}: the optimum still improves up to the largest dish on the curve ({end:g} m)")
-            else:
-                unit = "kg" if res.objective == "mass" else "W"
-                what = "comm mass" if res.objective == "mass" else "DC power"
-                lines.append(f"  {band_id}: ground dishes larger than {curve['knee_diameter_m']:g} m improve the least "
-                             f"{what} by at most {100 * KNEE_FRACTION:g} % ({curve['knee_value']:.3g} {unit} at "
-                             f"{curve['knee_diameter_m']:g} m; the curve ends at {end:g} m)")
+            lines.append(f"    {band_id:<8} {d.ground_antenna_id} + {d.spacecraft_antenna_id} + {d.amplifier_id} + "
+                         f"{d.modcod_id}: margin {d.margin_db:.2f} dB, {d.mass_kg:.2f} kg, {d.dc_power_w:.1f} W")
+    column, unit = ("best_mass_kg", "kg") if res.objective == "mass" else ("best_dc_power_w", "W")
+    what = "comm mass" if res.objective == "mass" else "DC power"
+    for band_id, curve in res.dish_curve.groupby("band_id", sort=False) if len(res.dish_curve) else []:
+        knee = curve[curve["is_knee"]]
+        if knee.empty:
+            continue
+        k_d = float(knee["ground_diameter_m"].iloc[0])
+        end = float(curve["ground_diameter_m"].iloc[-1])
+        if k_d >= end:
+            lines.append(f"  {band_id}: the optimum still improves up to the largest dish on the curve ({end:g} m)")
+        else:
+            lines.append(f"  {band_id}: ground dishes larger than {k_d:g} m improve the least {what} by at most "
+                         f"{100 * KNEE_FRACTION:g} % ({float(knee[column].iloc[0]):.3g} {unit} at {k_d:g} m; the "
+                         f"curve ends at {end:g} m)")
     m = s["mission"]
     continuous = m.get("visibility") == "continuous"
     if m.get("rate_source") in ("demand", "daily_volume_bits"):
@@ -274,90 +213,6 @@ def summary_text(res, results_dir: str) -> str:
     return "\n".join(lines)
 
 
-def _bands_table(res):
-    import pandas as pd  # noqa: PLC0415
-
-    rows = []
-    for space in res.spaces:
-        rec = res.search.best_by_band.get(space.band_id)
-        row = {"band_id": space.band_id, "band": space.band, "frequency_hz": space.frequency_hz,
-               "available_bandwidth_hz": space.available_bandwidth_hz, "designs": space.size,
-               "feasible": rec is not None}
-        curve = res.curves.get(space.band_id)
-        row["dish_knee_diameter_m"] = "" if curve is None or curve["knee_diameter_m"] is None else curve["knee_diameter_m"]
-        if rec is None:
-            closest = res.search.closest_by_band.get(space.band_id) or []
-            row.update({k: "" for k in ("ground_antenna_id", "spacecraft_antenna_id", "amplifier_id", "modcod_id",
-                                         "limiting_site", "margin_db", "mass_kg", "dc_power_w", "occupied_bandwidth_hz",
-                                         "eirp_dbw", "gt_dbk", "free_space_loss_db", "gas_loss_db", "cloud_loss_db",
-                                         "rain_loss_db", "scintillation_loss_db", "atmospheric_loss_db")})
-            row["reason"] = reason_text(space, closest[0], res.limits) if closest else "no designs"
-        else:
-            bud = res.band_budgets[space.band_id]
-            row.update(design_ids(space, rec["g"], rec["a"], rec["m"], rec["c"]))
-            row.pop("band_id", None)
-            row["band_id"] = space.band_id
-            row.update({"limiting_site": space.site_terms.site_ids[int(space.limiting_site_g[rec["g"]])],
-                        "margin_db": rec["margin_db"], "mass_kg": rec["mass_kg"], "dc_power_w": rec["dc_power_w"],
-                        "occupied_bandwidth_hz": rec["bandwidth_hz"], "eirp_dbw": bud["eirp_dbw"],
-                        "gt_dbk": bud["gt_dbk"], "free_space_loss_db": bud["free_space_loss_db"],
-                        "gas_loss_db": bud["gas_loss_db"], "cloud_loss_db": bud["cloud_loss_db"],
-                        "rain_loss_db": bud["rain_loss_db"], "scintillation_loss_db": bud["scintillation_loss_db"],
-                        "atmospheric_loss_db": bud["atmospheric_loss_db"], "reason": "feasible"})
-        rows.append(row)
-    cols = ["band_id", "band", "frequency_hz", "feasible", "ground_antenna_id", "spacecraft_antenna_id",
-            "amplifier_id", "modcod_id", "limiting_site", "margin_db", "mass_kg", "dc_power_w",
-            "occupied_bandwidth_hz", "available_bandwidth_hz", "eirp_dbw", "gt_dbk", "free_space_loss_db",
-            "gas_loss_db", "cloud_loss_db", "rain_loss_db", "scintillation_loss_db", "atmospheric_loss_db",
-            "dish_knee_diameter_m", "designs", "reason"]
-    return pd.DataFrame(rows)[cols]
-
-
-def _dish_tables(res):
-    import pandas as pd  # noqa: PLC0415
-
-    curve_rows, dish_rows, power_rows = [], [], []
-    for space in res.spaces:
-        curve = res.curves.get(space.band_id)
-        if curve is None:
-            continue
-        for i, d in enumerate(curve["diameter_m"]):
-            ok = curve["a"][i] >= 0
-            row = {"band_id": space.band_id, "ground_diameter_m": float(d), "feasible": bool(ok)}
-            if ok:
-                row.update({"best_mass_kg": curve["best_mass_kg"][i], "best_dc_power_w": curve["best_dc_power_w"][i],
-                            "margin_db": curve["margin_db"][i],
-                            "spacecraft_antenna_id": space.craft_antennas["spacecraft_antenna_id"].iloc[curve["a"][i]],
-                            "amplifier_id": space.amplifiers["amplifier_id"].iloc[curve["m"][i]],
-                            "modcod_id": space.modcods["modcod_id"].iloc[curve["c"][i]]})
-            else:
-                row.update({k: "" for k in ("best_mass_kg", "best_dc_power_w", "margin_db", "spacecraft_antenna_id",
-                                            "amplifier_id", "modcod_id")})
-            row["is_knee"] = curve["knee_diameter_m"] is not None and float(d) == curve["knee_diameter_m"]
-            curve_rows.append(row)
-        d_max, dmin = res.min_dish[space.band_id]
-        n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
-        for j, dj in enumerate(dmin):
-            a, m, c = np.unravel_index(j, (n_a, n_m, n_c))
-            dish_rows.append({"band_id": space.band_id,
-                              "spacecraft_antenna_id": space.craft_antennas["spacecraft_antenna_id"].iloc[a],
-                              "amplifier_id": space.amplifiers["amplifier_id"].iloc[m],
-                              "modcod_id": space.modcods["modcod_id"].iloc[c],
-                              "closes_within_curve": bool(np.isfinite(dj)),
-                              "min_ground_diameter_m": float(dj) if np.isfinite(dj) else "",
-                              "curve_max_diameter_m": float(d_max)})
-        pw = res.least_power[space.band_id]
-        for g in range(pw.shape[0]):
-            for a in range(pw.shape[1]):
-                for c in range(pw.shape[2]):
-                    power_rows.append({"band_id": space.band_id,
-                                       "ground_antenna_id": space.ground["ground_antenna_id"].iloc[g],
-                                       "spacecraft_antenna_id": space.craft_antennas["spacecraft_antenna_id"].iloc[a],
-                                       "modcod_id": space.modcods["modcod_id"].iloc[c],
-                                       "least_rf_power_w": float(pw[g, a, c])})
-    return pd.DataFrame(curve_rows), pd.DataFrame(dish_rows), pd.DataFrame(power_rows)
-
-
 def _toml(d: dict) -> str:
     def val(v):
         if isinstance(v, bool):
@@ -373,37 +228,23 @@ def _toml(d: dict) -> str:
     return "\n".join(out) + "\n"
 
 
-def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str | bytes]:
-    """Every file of the results folder, in memory (name -> content)."""
-    import pandas as pd  # noqa: PLC0415
-
+def build_files(res: TradeResult, results_dir: str, *, plots: bool = True) -> dict[str, str | bytes]:
+    """Every file of the results folder, in memory (name -> content), from the trade's result alone."""
     ver = versions()
     vline = _version_line(ver)
     files: dict[str, str | bytes] = {}
-    designs = _designs_table(res)
-    if not designs.empty:
-        files["designs.csv"] = _csv(designs, vline)
-    pareto = pd.DataFrame([dict(_design_row(res, res.space(r["band_id"]), r),
-                                on_overall_front=r["on_overall_front"]) for r in res.search.pareto])
-    if pareto.empty:
-        pareto = pd.DataFrame(columns=["band_id", "ground_antenna_id", "spacecraft_antenna_id", "amplifier_id",
-                                       "modcod_id", "ground_diameter_m", "mass_kg", "dc_power_w", "margin_db",
-                                       "occupied_bandwidth_hz", "feasible", "reason", "on_overall_front"])
-    files["pareto.csv"] = _csv(pareto, vline)
-    files["bands.csv"] = _csv(_bands_table(res), vline)
-    curve, dish, power = _dish_tables(res)
-    if not curve.empty:
-        files["dish_curve.csv"] = _csv(curve, vline)
-        files["dish_sizing.csv"] = _csv(dish, vline)
-        files["power_sizing.csv"] = _csv(power, vline)
-    if res.attenuation:
-        files["attenuation.csv"] = _csv(pd.DataFrame(res.attenuation), vline)
-    if res.volume:
-        vrows = [{"site_id": r["site_id"], "required": r["required"], "contact_s_per_day": r["contact_s_per_day"],
-                  "assigned_s_per_day": r["assigned_s_per_day"], "closing_rate_bps": r["closing_rate_bps"],
-                  "fixed_rate_bits_per_day": r["fixed_rate_bits_per_day"],
-                  "variable_rate_bits_per_day": r["variable_rate_bits_per_day"]} for r in res.volume["sites"]]
-        files["volume.csv"] = _csv(pd.DataFrame(vrows), vline)
+    if res.designs is not None:
+        files["designs.csv"] = _csv(res.designs, vline)
+    files["pareto.csv"] = _csv(res.pareto, vline)
+    files["bands.csv"] = _csv(res.bands, vline)
+    if not res.dish_curve.empty:
+        files["dish_curve.csv"] = _csv(res.dish_curve, vline)
+        files["dish_sizing.csv"] = _csv(res.dish_sizing, vline)
+        files["power_sizing.csv"] = _csv(res.power_sizing, vline)
+    if not res.attenuation.empty:
+        files["attenuation.csv"] = _csv(res.attenuation, vline)
+    if res.volume is not None:
+        files["volume.csv"] = _csv(res.volume, vline)
     if res.mission is not None and res.mission.contacts is not None:
         from .records import contacts_record  # noqa: PLC0415
 
@@ -411,23 +252,21 @@ def build_files(res, results_dir: str, *, plots: bool = True) -> dict[str, str |
                                             indent=2, sort_keys=True) + "\n"
     if res.mission is not None and res.mission.demand is not None:
         files["demand.csv"] = _csv(res.mission.demand.result.table, vline)
-    if res.elevation_margin:
-        files["margin_vs_elevation.csv"] = _csv(pd.DataFrame(res.elevation_margin), vline)
+    if not res.margin_vs_elevation.empty:
+        files["margin_vs_elevation.csv"] = _csv(res.margin_vs_elevation, vline)
 
     summary = summary_dict(res, results_dir)
     best_json = {"scenario": res.scenario.name, "scenario_file": res.scenario.file, "objective": res.objective,
-                 "feasible": summary["feasible"], "best": summary["best"], "mission": summary["mission"],
+                 "feasible": summary["feasible"], "status": summary["status"], "message": summary["message"],
+                 "best": summary["best"], "mission": summary["mission"],
                  "designs_evaluated": summary["designs_evaluated"], "designs_feasible": summary["designs_feasible"],
                  "closest": summary["closest"], "budget": None, "budgets_by_site": {},
                  "notes": sorted(set(res.notes)), "cautions": CAUTIONS, "versions": ver}
-    best = res.search.best
-    if best is not None:
-        space = res.space(best["band_id"])
-        site_id = space.site_terms.site_ids[int(space.limiting_site_g[best["g"]])]
-        best_json["budget"] = budget_record(res.best_budgets[site_id])
-        best_json["budgets_by_site"] = {k: budget_record(v) for k, v in sorted(res.best_budgets.items())}
-        site = next(s for s in res.scenario.sites if s.id == site_id)
-        files["best_link.toml"] = _toml(design_link_dict(res.scenario, space, best, site))
+    if res.best is not None:
+        best_json["budget"] = budget_record(res.budget().to_dict())
+        best_json["budgets_by_site"] = {site: budget_record(res.budget(site).to_dict())
+                                        for site in sorted(res.budgets.columns)}
+        files["best_link.toml"] = _toml(res.best_link)
     files["best.json"] = json.dumps(clean_for_json(best_json), indent=2, sort_keys=True) + "\n"
     text = summary_text(res, results_dir)
     files["summary.txt"] = text + "\n\ncautions:\n" + "\n".join(f"  - {c}" for c in CAUTIONS) + "\n"

@@ -14,11 +14,12 @@ from ..physics import path, propagation
 from .constraints import miss_texts, reason_texts
 from .evaluate import Limits, SearchResult, context, search
 from .linkcalc import compute_link
+from .result import TradeResult, TradeStatus
 from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_m
 from ..plan.mission import plan_mission, with_network_choice
 from .space import BandSpace, build_band_space, site_geometry, site_terms_for_apertures
 
-__all__ = ["TradeResult", "optimize", "DESIGNS_CSV_MAX", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
+__all__ = ["TradeWork", "TradeResult", "TradeStatus", "optimize", "run_trade", "validate_optimize_args", "DESIGNS_CSV_MAX", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
            "misses_text",
            "AVAILABILITY_GRID_PERCENT", "ELEVATION_GRID_DEG"]
 
@@ -29,8 +30,12 @@ ELEVATION_GRID_DEG = np.array([5.0, 7.5, 10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.
 
 
 @dataclass
-class TradeResult:
-    """Everything one optimisation found (no files)."""
+class TradeWork:
+    """The working state of one trade (indices into the band spaces; internal, mutable).
+
+    :func:`optimize` turns it into the public :class:`~tradeopt.trade.result.TradeResult`;
+    :func:`run_trade` returns it for tests and diagnostics that need the search's own records.
+    """
 
     scenario: object
     objective: str
@@ -142,7 +147,7 @@ def _ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
     return gain_minus_point_db, t_clear_k
 
 
-def _evidence(scenario, res: TradeResult) -> None:
+def _evidence(scenario, res: TradeWork) -> None:
     """Attenuation vs availability per site and band; margin vs elevation per band's best design.
 
     Both use the elevation the budget uses: the mask for an orbit, the real elevation of a
@@ -213,9 +218,79 @@ def _evidence(scenario, res: TradeResult) -> None:
 DESIGNS_CSV_MAX = 1_000_000
 
 
+_OBJECTIVES = ("mass", "power")
+
+
+def validate_optimize_args(scenario, *, objective, max_block_designs, keep_designs, sizing, designs_csv_max) -> str:
+    """Check the arguments of :func:`optimize`; return the objective to use.
+
+    Raises
+    ------
+    TypeError
+        ``scenario`` is not a Scenario, or a flag is not a bool, or a count not an int.
+    ValueError
+        ``objective`` is not "mass" or "power"; a count is not positive.
+    """
+    from ..inputs.scenario import Scenario  # noqa: PLC0415
+
+    if not isinstance(scenario, Scenario):
+        raise TypeError(f"scenario must be a tradeopt Scenario (tradeopt.load_scenario(path)), got "
+                        f"{type(scenario).__name__}")
+    if objective is None:
+        objective = scenario.objective
+    if objective not in _OBJECTIVES:
+        raise ValueError(f"objective must be 'mass' or 'power', got {objective!r}")
+    for name, value in (("keep_designs", keep_designs), ("sizing", sizing)):
+        if not isinstance(value, bool):
+            raise TypeError(f"{name} must be True or False, got {value!r}")
+    for name, value in (("max_block_designs", max_block_designs), ("designs_csv_max", designs_csv_max)):
+        if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
+            raise ValueError(f"{name} must be a positive integer, got {value!r}")
+    return objective
+
+
 def optimize(scenario, *, objective: str | None = None, max_block_designs: int = 1 << 20,
              keep_designs: bool = True, sizing: bool = True, designs_csv_max: int = DESIGNS_CSV_MAX) -> TradeResult:
-    """Run the whole trade for a scenario.
+    """Run the whole trade for a scenario and return its typed result.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        From :func:`tradeopt.load_scenario`.
+    objective : {"mass", "power"}, optional
+        Minimise spacecraft comm mass [kg] or DC power [W]; default: the scenario's.
+    max_block_designs : int
+        Designs held in memory at once.
+    keep_designs : bool
+        Keep every design for ``designs`` (only when the space has at most ``designs_csv_max`` designs).
+    sizing : bool
+        Compute the continuous sizing, dish curves and evidence.
+    designs_csv_max : int
+        Largest space kept in detail.
+
+    Returns
+    -------
+    TradeResult
+        ``status``, ``success``, ``message``, ``best`` and the tables; see :mod:`tradeopt.trade.result`.
+
+    Examples
+    --------
+    >>> import tradeopt
+    >>> res = tradeopt.optimize(tradeopt.load_scenario("examples/geostationary_link.toml"), sizing=False)
+    >>> res.success, res.best.band_id
+    (True, 'X-DOWN')
+    """
+    from .assemble import assemble  # noqa: PLC0415
+
+    objective = validate_optimize_args(scenario, objective=objective, max_block_designs=max_block_designs,
+                                       keep_designs=keep_designs, sizing=sizing, designs_csv_max=designs_csv_max)
+    return assemble(run_trade(scenario, objective=objective, max_block_designs=max_block_designs,
+                              keep_designs=keep_designs, sizing=sizing, designs_csv_max=designs_csv_max))
+
+
+def run_trade(scenario, *, objective: str | None = None, max_block_designs: int = 1 << 20,
+              keep_designs: bool = True, sizing: bool = True, designs_csv_max: int = DESIGNS_CSV_MAX) -> TradeWork:
+    """Run the whole trade for a scenario and return its working state (see :func:`optimize`).
 
     Parameters
     ----------
@@ -233,7 +308,7 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
 
     Returns
     -------
-    TradeResult
+    TradeWork
     """
     objective = objective or scenario.objective
     mission = plan_mission(scenario)
@@ -248,8 +323,8 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
                         "every design was still evaluated, and pareto.csv, bands.csv and best.json are complete")
     found = search(spaces, limits, objective=objective, max_block_designs=max_block_designs,
                    keep_designs=keep_designs)
-    res = TradeResult(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found,
-                      mission=mission)
+    res = TradeWork(scenario=scenario, objective=objective, limits=limits, spaces=spaces, search=found,
+                    mission=mission)
     res.notes.extend(mission.messages)
     if dropped_note:
         res.notes.append(dropped_note)
@@ -290,7 +365,7 @@ def optimize(scenario, *, objective: str | None = None, max_block_designs: int =
     return res
 
 
-def _volume_analysis(scenario, res: TradeResult, best: dict) -> dict:
+def _volume_analysis(scenario, res: TradeWork, best: dict) -> dict:
     """Daily volume of the best hardware: its fixed rate, the best fixed rate, and variable rate (ACM).
 
     One downlink at a time: the time is taken from the joint states of the sites
