@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: install demo test bench clean
+.PHONY: install demo test test-fast bench clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -21,6 +21,9 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(BIN)/python -m pytest
+
+test-fast: $(STAMP)
+	$(BIN)/python -m pytest -m "not slow"
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/run_all.py
