@@ -185,6 +185,7 @@ def test_same_link_file_gives_byte_identical_json(explicit_file, capsys):
     assert a == b
 
 
+@pytest.mark.slow  # a new process that imports itur and loads its maps (about 4 s)
 def test_subprocess_json_is_byte_identical_to_in_process(capsys):
     """A separate process gives the same bytes (no state carried between runs, no stray output)."""
     proc = run_process("budget", str(EXAMPLE), "--json")

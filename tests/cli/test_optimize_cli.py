@@ -141,6 +141,7 @@ def _check_line(stderr: str, path: Path, name: str) -> None:
         assert part in line, (part, line)
 
 
+@pytest.mark.slow  # the shared fixture starts four processes (about 7 s)
 @pytest.mark.parametrize("name", SUBPROCESS_CASES)
 def test_bad_scenario_command_exits_2_with_one_line(bad_runs, name):
     path, out, code, stdout, stderr = bad_runs[name]
@@ -192,6 +193,7 @@ NOTHING_CLOSES = (BASE.replace('bands = ["X-DOWN", "KA-DOWN"]', 'bands = ["X-DOW
                   .replace("required_margin_db = 3.0", "required_margin_db = 30.0"))
 
 
+@pytest.mark.slow  # a whole run in a new process (about 10 s)
 def test_nothing_feasible_json(tmp_path):
     """1 Tbit/s with 30 dB of margin: nothing closes, and that is a result (exit 0, --json)."""
     path = tmp_path / "nothing_closes.toml"
@@ -218,6 +220,7 @@ def test_nothing_feasible_json(tmp_path):
     assert "NO DESIGN IS FEASIBLE" in (out / "summary.txt").read_text(encoding="utf-8")
 
 
+@pytest.mark.slow  # a whole run (about 4 s)
 def test_nothing_feasible_text(tmp_path, capsys):
     path = tmp_path / "nothing_closes.toml"
     path.write_text(NOTHING_CLOSES, encoding="utf-8")

@@ -123,6 +123,7 @@ def test_scintillation_note_outside_stated_range():
     assert len(notes) == 1 and "2.245 GHz" in notes[0] and "26.5 GHz" in notes[0]
 
 
+@pytest.mark.slow  # imports itur in a new process (about 5 s)
 def test_import_restores_numpy_error_state():
     # itur 0.4.0 sets np.seterr(divide='ignore') on import (checked in a fresh process);
     # the boundary restores the caller's state.

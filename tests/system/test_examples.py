@@ -54,6 +54,7 @@ def test_every_scenario_example_is_run_here():
     assert scenarios == set(SCENARIO_EXAMPLES)
 
 
+@pytest.mark.slow  # the shared fixture runs the three example scenarios (about 20 s)
 @pytest.mark.parametrize("name", SCENARIO_EXAMPLES)
 def test_example_runs_and_its_best_design_keeps_the_scenario_limits(runs, name):
     # Catches: an example that no longer loads (renamed catalog ID, new required key), errors out,
@@ -75,6 +76,7 @@ def test_example_runs_and_its_best_design_keeps_the_scenario_limits(runs, name):
         assert (folder / f).is_file(), f
 
 
+@pytest.mark.slow  # the shared fixture runs the three example scenarios (about 20 s)
 def test_leo_example_rate_is_volume_over_contact_time_at_the_mask_range(runs):
     # Catches: the volume-derived rate not being volume / contact time, or the budget sized at the
     # zenith range instead of the range at the site mask.
@@ -93,6 +95,7 @@ def test_leo_example_rate_is_volume_over_contact_time_at_the_mask_range(runs):
     assert best["budget"]["range_m"] == pytest.approx(expected, rel=0.03)
 
 
+@pytest.mark.slow  # the shared fixture runs the three example scenarios (about 20 s)
 def test_leo_example_labels_its_tle_synthetic(runs):
     # Catches: a TLE built from orbital elements presented as if it were an observed element set.
     rec = json.loads((runs["leo_volume_mission"][3] / "contacts.json").read_text(encoding="utf-8"))
@@ -100,6 +103,7 @@ def test_leo_example_labels_its_tle_synthetic(runs):
     assert rec["orbit"]["tle_source"].startswith("synthetic")
 
 
+@pytest.mark.slow  # the shared fixture runs the three example scenarios (about 20 s)
 def test_geostationary_example_uses_the_fixed_look_angles_of_its_slot(runs):
     # Catches: a geostationary link sized at the site mask or at a low-orbit range instead of the
     # slot's fixed elevation and range.
@@ -121,6 +125,7 @@ def test_geostationary_example_uses_the_fixed_look_angles_of_its_slot(runs):
     assert best["budget"]["elevation_deg"] > site["min_elevation_deg"] + 20.0  # not the mask
 
 
+@pytest.mark.slow  # the shared fixture runs the three example scenarios (about 20 s)
 def test_deep_space_example_is_sized_at_its_fixed_range(runs):
     # Catches: a fixed range replaced by an orbit-derived range, or a deep-space result that
     # claims a band closes which the catalog cannot close within the mass limit.

@@ -253,6 +253,7 @@ SUBPROCESS_CASES = ["malformed_toml", "comment_only", "nan_availability", "unit_
                     "sample_file_empty"]
 
 
+@pytest.mark.slow  # a new Python process per command (3 to 12 s each)
 @pytest.mark.parametrize("name", SUBPROCESS_CASES)
 def test_bad_scenario_in_a_real_process_with_warnings_as_errors(name, tmp_path):
     """``python -W error``: exit 2, one stderr line, no traceback, no warning, DIR not created."""
@@ -335,6 +336,7 @@ def test_out_path_that_is_a_file(tmp_path, capsys):
 
 # --------------------------------------------------------------------------- crash safety
 
+@pytest.mark.slow  # two whole runs, one of a 250,000-design space (about 10 s)
 def test_killed_large_run_leaves_the_previous_results_intact(tmp_path, capsys):
     out_dir = tmp_path / "results" / "trade"
     small = small_scenario(tmp_path)
@@ -431,6 +433,7 @@ def demo_runs(tmp_path_factory):
     return {"first": first, "second": second, "run1": base / "run1", "run2": out_dir}
 
 
+@pytest.mark.slow  # the shared fixture runs the default scenario twice in new processes (about 35 s)
 def test_optimize_completes_with_runtime_warnings_as_errors(demo_runs):
     first = demo_runs["first"]
     assert first.returncode == 0, first.stderr
@@ -452,6 +455,7 @@ def test_pytest_turns_warnings_from_tradeopt_into_errors(pytestconfig):
         warnings.warn_explicit("overflow in power", RuntimeWarning, "space.py", 1, module="tradeopt.trade.space")
 
 
+@pytest.mark.slow  # the shared fixture runs the default scenario twice in new processes (about 35 s)
 def test_two_runs_are_byte_identical(demo_runs):
     assert demo_runs["second"].returncode == 0, demo_runs["second"].stderr
     run1, run2 = demo_runs["run1"], demo_runs["run2"]
@@ -474,6 +478,7 @@ def significant_digits(text: str) -> int:
     return len(mantissa.strip("0")) or 1
 
 
+@pytest.mark.slow  # the shared fixture runs the default scenario twice in new processes (about 35 s)
 def test_no_nan_or_infinity_and_at_most_10_significant_digits(demo_runs):
     import pandas as pd
 
@@ -522,6 +527,7 @@ def test_no_nan_or_infinity_and_at_most_10_significant_digits(demo_runs):
             assert not isinstance(value, float) or math.isfinite(value), key
 
 
+@pytest.mark.slow  # the shared fixture runs the default scenario twice in new processes (about 35 s)
 def test_best_link_of_the_demo_runs_through_budget(demo_runs, capsys):
     """best_link.toml is a valid link file (README: 'tradeopt budget' on it gives the same numbers)."""
     folder = demo_runs["run2"]
