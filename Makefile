@@ -3,8 +3,9 @@ PYTHON ?= python3.11
 VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
+LINT_STAMP := $(VENV)/.lint-installed
 
-.PHONY: install demo test test-fast bench clean
+.PHONY: install demo test test-fast lint bench clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -13,6 +14,10 @@ $(STAMP): $(BIN)/python pyproject.toml
 	$(BIN)/python -m pip install --quiet --upgrade pip
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 	touch $(STAMP)
+
+$(LINT_STAMP): $(STAMP)
+	$(BIN)/python -m pip install --quiet -e '.[test,lint]'
+	touch $(LINT_STAMP)
 
 install: $(STAMP)
 
@@ -25,8 +30,14 @@ test: $(STAMP)
 test-fast: $(STAMP)
 	$(BIN)/python -m pytest -m "not slow"
 
+# ruff (style, imports, complexity), mypy (strict for physics and mission), import-linter (the layers)
+lint: $(LINT_STAMP)
+	$(BIN)/ruff check .
+	$(BIN)/mypy
+	$(BIN)/lint-imports
+
 bench: $(STAMP)
 	$(BIN)/python benchmarks/run_all.py
 
 clean:
-	rm -rf $(VENV) build *.egg-info .pytest_cache .hypothesis
+	rm -rf $(VENV) build *.egg-info .pytest_cache .hypothesis .mypy_cache .ruff_cache .import_linter_cache
