@@ -210,3 +210,13 @@ def test_margin_monotone(kw, factor, step_db):
     # exact dB steps (textbook formula, computed): power and rate enter as 10 log10
     assert margin(tx_power_w=kw["tx_power_w"] * factor) - base == pytest.approx(10 * math.log10(factor), abs=EXACT)
     assert base - margin(rate_bps=kw["rate_bps"] * factor) == pytest.approx(10 * math.log10(factor), abs=EXACT)
+
+
+def test_max_rate_from_margin_agrees_with_the_cn0_form():
+    # Bug caught: a sign or factor error in the margin form of the rate scaling (used by the volume
+    # analysis): it must give the C/N0 closed form's R_max (Maral and Bousquet, 5th ed., ch. 5).
+    t = budget.link_budget(tx_power_w=5.0, tx_gain_dbi=6.0, free_space_loss_db=176.74, rate_bps=10e6,
+                           ebn0_required_db=4.4, rx_gain_dbi=40.0, clear_sky_noise_temperature_k=150.0,
+                           implementation_loss_db=1.0, required_margin_db=3.0)
+    got = budget.max_rate_from_margin_bps(10e6, t["margin_db"], 3.0)
+    assert got == pytest.approx(float(t["max_rate_bps"]), rel=1e-12)

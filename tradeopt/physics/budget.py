@@ -27,7 +27,7 @@ from . import noise
 from .propagation import total_attenuation_db
 from .units import BOLTZMANN_DBW_PER_K_HZ, Floats
 
-__all__ = ["BUDGET_TERMS", "RECEIVER_TERMS", "link_budget", "max_rate_bps"]
+__all__ = ["BUDGET_TERMS", "RECEIVER_TERMS", "link_budget", "max_rate_bps", "max_rate_from_margin_bps"]
 
 #: Budget terms in reading order, with their units (the keys of :func:`link_budget`'s result).
 BUDGET_TERMS = {
@@ -66,6 +66,40 @@ BUDGET_TERMS = {
 #: Terms that need the receive gain and noise temperature separately: not available (omitted from the
 #: result) when the receiver is given by its G/T alone.
 RECEIVER_TERMS = ("rx_gain_dbi", "received_power_dbw", "clear_sky_noise_temperature_k", "system_noise_temperature_k")
+
+
+def max_rate_from_margin_bps(rate_bps, margin_db, required_margin_db):
+    """Largest information rate that keeps the required margin, from the margin at another rate.
+
+    R_max = R 10^((M - M_req) / 10): the same closed form as :func:`max_rate_bps`, written with the
+    margin M that the rate R gives (Eb/N0 falls by 10 log10 of the rate ratio).
+
+    Parameters
+    ----------
+    rate_bps : array_like
+        Information rate at which the margin was computed [bit/s].
+    margin_db : array_like
+        Margin at that rate [dB].
+    required_margin_db : array_like
+        Margin to keep [dB].
+
+    Returns
+    -------
+    rate_bps : ndarray or float
+        [bit/s].
+
+    References
+    ----------
+    Maral and Bousquet, *Satellite Communications Systems*, 5th ed., chapter 5.
+
+    Examples
+    --------
+    >>> float(max_rate_from_margin_bps(1.0e6, 13.0, 3.0))  # 10 dB to spare: ten times the rate
+    10000000.0
+    """
+    out = np.asarray(rate_bps, dtype=float) * np.power(
+        10.0, (np.asarray(margin_db, dtype=float) - np.asarray(required_margin_db, dtype=float)) / 10.0)
+    return np.float64(out) if np.ndim(out) == 0 else out
 
 
 def max_rate_bps(cn0_dbhz: Floats, ebn0_required_db: Floats, implementation_loss_db: Floats,

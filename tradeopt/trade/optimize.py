@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..physics import path, propagation
+from ..physics.budget import max_rate_from_margin_bps
 from .constraints import miss_texts, reason_texts
 from .evaluate import Limits, SearchResult, context, search
 from .linkcalc import compute_link
@@ -416,7 +417,7 @@ def _volume_analysis(scenario, res: TradeWork, best: dict) -> dict:
                                       feed_loss_db=float(row["feed_loss_db"]), clear_sky_temperature_k=t_clear,
                                       elevation_deg=el, range_m=rng)
         margin = (gain_minus_point + st.path_and_noise_db[0])[:, None] + rest_c[None, :]
-        r = np.minimum(rate * np.power(10.0, (margin - req_margin) / 10.0), bw_cap[None, :])
+        r = np.minimum(max_rate_from_margin_bps(rate, margin, req_margin), bw_cap[None, :])
         return r, margin[:, c_design]
 
     n_states, n_sites = vis_state.shape
