@@ -338,6 +338,7 @@ def check_case(case: dict) -> dict:
         return {"feasible": True}
 
 
+@pytest.mark.slow  # 15 random trades, each against a brute-force enumeration (about 13 s)
 @settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 @given(case=cases())
 def test_optimizer_equals_brute_force(case):

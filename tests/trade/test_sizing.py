@@ -159,6 +159,7 @@ def test_least_rf_power_gives_exactly_the_required_margin(sized):
         assert abs(min(margins.values()) - scenario.required_margin_db) < 1e-6, (r, margins)
 
 
+@pytest.mark.slow  # two searches of the default scenario's whole space (about 5 s)
 def test_large_space_leaves_designs_csv_out_but_keeps_the_answer():
     # Memory and disk stay bounded: beyond the detail limit every design is still evaluated
     # (same best design and counts), only the per-design table is left out, and a note says so.
