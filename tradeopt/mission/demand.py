@@ -49,6 +49,7 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from ..physics import units as _units
 from ..physics.validity import check_range
 
 __all__ = [
@@ -77,7 +78,7 @@ __all__ = [
 ]
 
 #: Seconds in a (solar) day [s].
-SECONDS_PER_DAY = 86_400.0
+SECONDS_PER_DAY = _units.SECONDS_PER_DAY
 #: Nyquist sampling factor: the minimum sampling rate is 2 x the signal bandwidth [-].
 NYQUIST_FACTOR = 2.0
 #: Default sampling factor, 2.2 x bandwidth (Nyquist's 2 plus 10 % margin for a real

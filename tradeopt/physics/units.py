@@ -20,6 +20,7 @@ if TYPE_CHECKING:
     import pandas as pd
 
 __all__ = [
+    "SECONDS_PER_DAY",
     "SPEED_OF_LIGHT_M_PER_S",
     "BOLTZMANN_J_PER_K",
     "BOLTZMANN_DBW_PER_K_HZ",
@@ -52,6 +53,8 @@ BOLTZMANN_J_PER_K = 1.380649e-23
 BOLTZMANN_DBW_PER_K_HZ = 10.0 * math.log10(BOLTZMANN_J_PER_K)
 #: Mean Earth radius [m] for spherical-Earth geometry (IUGG mean radius R1, 6371.0088 km).
 EARTH_RADIUS_M = 6_371_008.8
+#: Seconds in a day [s] (86 400 SI seconds; the day of every per-day figure in tradeopt).
+SECONDS_PER_DAY = 86_400.0
 #: Reference (room) temperature for noise figures and lossy lines [K] (IEEE noise-figure convention).
 REFERENCE_TEMPERATURE_K = 290.0
 #: Cosmic microwave background brightness temperature used by ITU-R P.618 [K].

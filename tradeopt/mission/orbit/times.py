@@ -19,12 +19,13 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from ...physics.units import SECONDS_PER_DAY
 from ...physics.validity import check_range
 
 __all__: list[str] = []  # private helpers of the orbit package
 
 
-_DAY_S = 86_400.0
+_DAY_S = SECONDS_PER_DAY
 _DAY_NS = 86_400 * 10**9
 _JD_UNIX_EPOCH = 2_440_587.5  # Julian date of 1970-01-01T00:00 UTC
 _SGP4_EPOCH_NS = np.datetime64("1949-12-31T00:00:00", "ns").astype(np.int64)
