@@ -13,16 +13,19 @@ from ..inputs.errors import InputError
 from ..mission import demand as dm
 from ..mission import orbit as orb
 
-__all__ = ["DEFAULT_BIN_EDGES_DEG", "SECONDS_PER_DAY", "ContactPlan", "satrec_for", "site_table", "contact_plan"]
+__all__ = ["ELEVATION_GRID_DEG", "DEFAULT_BIN_EDGES_DEG", "SECONDS_PER_DAY", "ContactPlan", "satrec_for", "site_table", "contact_plan"]
 
 #: Elevation bins of the histograms when the scenario gives none [deg].
-DEFAULT_BIN_EDGES_DEG = [5.0, 7.5, 10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.0, 50.0, 60.0, 70.0, 80.0, 90.0]
+#: The elevation grid [deg] of the contact histograms and of the margin-vs-elevation evidence; it starts at
+#: the lowest elevation the propagation models accept (ITU-R P.618/P.676: 5 deg).
+ELEVATION_GRID_DEG = (5.0, 7.5, 10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.0, 50.0, 60.0, 70.0, 80.0, 90.0)
+DEFAULT_BIN_EDGES_DEG = list(ELEVATION_GRID_DEG)
 #: Seconds in a day [s].
 SECONDS_PER_DAY = dm.SECONDS_PER_DAY
 
 
 def _start(scenario) -> np.datetime64:
-    return np.datetime64(scenario.contacts["start_utc"].replace("Z", ""), "ns")
+    return np.datetime64(scenario.contacts.start_utc.replace("Z", ""), "ns")
 
 
 def satrec_for(scenario):
@@ -31,7 +34,9 @@ def satrec_for(scenario):
     Parameters
     ----------
     scenario : Scenario
-        Its ``[orbit]`` table (and ``[contacts] start_utc``, the epoch of elements given without one).
+        Its orbit (and ``[contacts] start_utc``, the epoch of elements given without one). Elements go to
+        sgp4 as their semi-major axis ``EARTH_RADIUS_M + altitude_m``: altitudes are above the mean Earth
+        radius (:mod:`tradeopt.inputs.scenario_types`).
 
     Returns
     -------
@@ -45,15 +50,14 @@ def satrec_for(scenario):
     o = scenario.orbit
     kind = scenario.orbit_kind
     if kind == "tle":
-        return orb.satrec_from_tle(o["tle_line1"], o["tle_line2"])
+        return orb.satrec_from_tle(o.tle_line1, o.tle_line2)
     if kind == "elements":
-        epoch = o["epoch_utc"] or scenario.contacts["start_utc"]
+        epoch = o.epoch_utc or scenario.contacts.start_utc
         try:
             return orb.satrec_from_elements(
-                epoch_utc=np.datetime64(epoch.replace("Z", ""), "ns"), altitude_m=o["altitude_m"],
-                semi_major_axis_m=o["semi_major_axis_m"], eccentricity=o["eccentricity"] or 0.0,
-                inclination_deg=o["inclination_deg"], raan_deg=o["raan_deg"],
-                argument_of_perigee_deg=o["argument_of_perigee_deg"], mean_anomaly_deg=o["mean_anomaly_deg"])
+                epoch_utc=np.datetime64(epoch.replace("Z", ""), "ns"), semi_major_axis_m=o.semi_major_axis_m,
+                eccentricity=o.eccentricity, inclination_deg=o.inclination_deg, raan_deg=o.raan_deg,
+                argument_of_perigee_deg=o.argument_of_perigee_deg, mean_anomaly_deg=o.mean_anomaly_deg)
         except ValueError as exc:
             raise InputError(str(exc), file=scenario.file, where="table [orbit]") from None
     if kind == "circular":
@@ -149,13 +153,13 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
     """
     import pandas as pd  # noqa: PLC0415
 
-    days = float(days if days is not None else scenario.contacts["days"])
+    days = float(days if days is not None else scenario.contacts.days)
     if not 0.01 <= days <= 3660.0:
         raise InputError(f"expected a number of days between 0.01 and 3660, got {days:g}", file=scenario.file,
                          where="option --days")
     start = _start(scenario)
     sites = scenario.sites
-    edges = list(scenario.contacts["elevation_bin_edges_deg"] or DEFAULT_BIN_EDGES_DEG)
+    edges = list(scenario.contacts.elevation_bin_edges_deg or DEFAULT_BIN_EDGES_DEG)
     table = site_table(sites)
     kind = scenario.orbit_kind
     if kind == "range":
@@ -163,7 +167,7 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
                          "geostationary_longitude_deg", file=scenario.file, where="key [orbit] range_m")
     end = start + np.timedelta64(int(round(days * SECONDS_PER_DAY * 1e9)), "ns")
     if kind == "geostationary":
-        look = orb.geostationary_look_angles(scenario.orbit["geostationary_longitude_deg"], table)
+        look = orb.geostationary_look_angles(scenario.orbit.longitude_deg, table)
         rows, geometry = [], {}
         hist = np.zeros((len(sites), len(edges) - 1))
         for i, s in enumerate(sites):
@@ -183,7 +187,7 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
         joint_s = np.array([SECONDS_PER_DAY]) if seen.any() else np.zeros(0)
     else:
         sat = satrec_for(scenario)
-        step = scenario.contacts["step_s"]
+        step = scenario.contacts.step_s
         frames = []
         for mask in sorted({s.min_elevation_deg for s in sites}):
             idx = [i for i, s in enumerate(sites) if s.min_elevation_deg == mask]

@@ -17,7 +17,7 @@ import numpy as np
 
 from ..inputs.errors import InputError
 from ..mission import orbit as orb
-from ..physics.units import EARTH_RADIUS_M
+from ..physics import propagation
 from .contacts import SECONDS_PER_DAY, ContactPlan, contact_plan, satrec_for, site_table
 from .demand import DemandPlan, demand_plan
 
@@ -193,9 +193,11 @@ def _check_contact_geometry(scenario, plan: ContactPlan) -> None:
             raise InputError(f"site {s.id!r} never sees the spacecraft above its {s.min_elevation_deg:g} deg mask in "
                              f"{plan.days:g} days; lower the mask, lengthen [contacts] days, or set required = false",
                              file=scenario.file, where="table [[sites]]")
-        if s.id in plan.geometry and plan.geometry[s.id][0] < 5.0:
+        lowest = propagation.ELEVATION_RANGE_DEG[0]
+        if s.id in plan.geometry and plan.geometry[s.id][0] < lowest:
             raise InputError(f"site {s.id!r} sees the geostationary slot at {plan.geometry[s.id][0]:.2f} deg, below "
-                             "the 5 deg for which ITU-R P.676-12 Annex 2 and P.618-13 scintillation are stated",
+                             f"the {lowest:g} deg for which ITU-R P.676-12 Annex 2 and P.618-13 scintillation are "
+                             "stated",
                              file=scenario.file, where="key [orbit] geostationary_longitude_deg")
         if s.required and plan.geometry[s.id][0] < s.min_elevation_deg:
             raise InputError(f"site {s.id!r} sees the geostationary slot at {plan.geometry[s.id][0]:.2f} deg, below "
@@ -236,14 +238,11 @@ def link_geometry(scenario, plan: ContactPlan | None = None) -> LinkGeometry:
     elif kind == "geostationary":
         basis = "not used: the range to the geostationary slot from its look angles"
     elif kind == "tle":
-        sat = satrec_for(scenario)
-        a_m = sat.a * sat.radiusearthkm * 1000.0
-        altitude_m = a_m * (1.0 - sat.ecco) - EARTH_RADIUS_M  # perigee: highest pfd, conservative
+        altitude_m = scenario.orbit.perigee_altitude_m  # perigee: highest pfd, conservative
         basis = "perigee of the TLE above the mean Earth radius (the highest pfd, conservative)"
-    elif scenario.orbit.get("altitude_m") is not None:
-        basis = "[orbit] altitude_m, taken above the mean Earth radius by the spherical-Earth formulas"
     else:
-        basis = "[orbit] semi_major_axis_m less the mean Earth radius"
+        basis = ("mean altitude of the orbit above the mean Earth radius ([orbit] altitude_m, or semi_major_axis_m "
+                 "less the mean Earth radius)")
     return LinkGeometry(kind=kind, sites=sites, altitude_m=altitude_m, altitude_basis=basis,
                         range_m=scenario.range_m)
 
@@ -314,7 +313,7 @@ def network_choice(scenario, plan: ContactPlan, daily_volume_bits: float,
     cand = [i for i, s in enumerate(plan.sites) if s.cost_per_year is not None]
     if not cand:
         return None
-    slot = float(scenario.network["slot_s"])
+    slot = float(scenario.network.slot_s)
     n_slots = int(np.ceil(plan.days * SECONDS_PER_DAY / slot))
     t0 = plan.start_utc
     cover = np.zeros((len(cand), n_slots))  # fraction of each slot inside a pass
@@ -383,7 +382,7 @@ def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
                                                "continuously, so there is no gap"}, None
     sat = satrec_for(scenario)
     days, cycle = orb.gap_window_days(sat, plan.days)
-    step = float(scenario.contacts["step_s"])
+    step = float(scenario.contacts.step_s)
     rule = f"at least {orb.GAP_WINDOW_MIN_DAYS:g} days and one {cycle:g}-day ground-track cycle"
     if cycle >= orb.GAP_WINDOW_MAX_DAYS:
         rule = (f"one year: the ground-track cycle is not covered within {orb.GAP_WINDOW_MAX_DAYS:g} days, so the "
@@ -434,11 +433,10 @@ def plan_mission(scenario) -> MissionPlan:
     """
     notes, warnings = _split_notes(getattr(scenario, "notes", []))
     req = scenario.requirement
-    needs_volume = req.get("rate_bps") is None and (req.get("daily_volume_bits") is not None
-                                                     or req.get("volume_from_demand"))
+    needs_volume = req.rate_bps is None and (req.daily_volume_bits is not None or req.volume_from_demand)
     contacts = None
     contact_warnings = []
-    if scenario.orbit_kind in ("elements", "tle", "geostationary"):
+    if scenario.orbit.has_contacts:
         contacts = contact_plan(scenario)
         if contacts.kind == "geostationary":
             notes.append("elevation and slant range at each site from the geostationary slot (fixed geometry: "
@@ -451,23 +449,23 @@ def plan_mission(scenario) -> MissionPlan:
         warnings.extend(contact_warnings)
     geometry = link_geometry(scenario, contacts)
     if not needs_volume:
-        return MissionPlan(rate_bps=float(req["rate_bps"]), rate_source="given", geometry=geometry,
+        return MissionPlan(rate_bps=float(req.rate_bps), rate_source="given", geometry=geometry,
                            contacts=contacts, notes=tuple(notes), warnings=tuple(warnings))
     demand = None
-    if req.get("volume_from_demand"):
+    if req.volume_from_demand:
         demand = demand_plan(scenario)
         warnings.extend(demand.warnings)
         daily_volume_bits = float(demand.result.information_bits_per_day)
         rate_source = "demand"
     else:
-        daily_volume_bits = float(req["daily_volume_bits"])
+        daily_volume_bits = float(req.daily_volume_bits)
         rate_source = "daily_volume_bits"
     rate, contact_s = required_rate_bps(scenario, contacts, daily_volume_bits)
     notes.append(f"information rate {rate / 1e6:.4g} Mbit/s = {daily_volume_bits / 1e9:.4g} Gbit/day over "
                  f"{contact_s / 60:.1f} min/day of contact above the masks of the required sites (simultaneous "
                  "visibility counted once); a design that closes at the mask delivers it")
     storage = None
-    if req.get("storage_bits") is not None:
+    if req.storage_bits is not None:
         worst_gap, window, age = _storage_gap(scenario, contacts)
         if age:  # the longer gap window propagates the TLE farther: one warning, for the farthest time
             warnings = [w for w in warnings if w not in contact_warnings] + [age]
@@ -476,7 +474,7 @@ def plan_mission(scenario) -> MissionPlan:
         generation = daily_volume_bits / SECONDS_PER_DAY
         need = float(storage_needed_bits(generation, worst_gap))
         storage = StorageCheck(worst_gap_s=worst_gap, generation_rate_bps=generation, needed_bits=need,
-                               storage_bits=float(req["storage_bits"]), fits=need <= float(req["storage_bits"]),
+                               storage_bits=float(req.storage_bits), fits=need <= float(req.storage_bits),
                                **window)
     return MissionPlan(rate_bps=rate, rate_source=rate_source, geometry=geometry, contacts=contacts, demand=demand,
                        daily_volume_bits=daily_volume_bits, contact_s_per_day=contact_s, storage=storage,

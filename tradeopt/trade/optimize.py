@@ -12,6 +12,7 @@ import numpy as np
 
 from ..physics import path, propagation
 from ..physics.budget import max_rate_from_margin_bps
+from ..plan.contacts import ELEVATION_GRID_DEG as _PLAN_ELEVATION_GRID_DEG
 from .constraints import miss_texts, reason_texts
 from .evaluate import Limits, SearchResult, context, search
 from .linkcalc import compute_link
@@ -27,7 +28,7 @@ __all__ = ["TradeWork", "TradeResult", "TradeStatus", "optimize", "run_trade", "
 #: Availabilities [%] of the attenuation-vs-availability evidence.
 AVAILABILITY_GRID_PERCENT = np.array([95.0, 98.0, 99.0, 99.5, 99.8, 99.9, 99.95, 99.98, 99.99, 99.995, 99.999])
 #: Elevations [deg] of the margin-vs-elevation evidence.
-ELEVATION_GRID_DEG = np.array([5.0, 7.5, 10.0, 12.5, 15.0, 20.0, 25.0, 30.0, 40.0, 50.0, 60.0, 70.0, 80.0, 90.0])
+ELEVATION_GRID_DEG = np.array(_PLAN_ELEVATION_GRID_DEG)
 
 
 @dataclass
