@@ -68,7 +68,8 @@ BUDGET_TERMS = {
 RECEIVER_TERMS = ("rx_gain_dbi", "received_power_dbw", "clear_sky_noise_temperature_k", "system_noise_temperature_k")
 
 
-def max_rate_from_margin_bps(rate_bps, margin_db, required_margin_db):
+def max_rate_from_margin_bps(rate_bps: Floats, margin_db: Floats,
+                             required_margin_db: Floats) -> np.float64 | npt.NDArray[np.float64]:
     """Largest information rate that keeps the required margin, from the margin at another rate.
 
     R_max = R 10^((M - M_req) / 10): the same closed form as :func:`max_rate_bps`, written with the

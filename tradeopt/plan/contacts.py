@@ -13,7 +13,8 @@ from ..inputs.errors import InputError
 from ..mission import demand as dm
 from ..mission import orbit as orb
 
-__all__ = ["ELEVATION_GRID_DEG", "DEFAULT_BIN_EDGES_DEG", "SECONDS_PER_DAY", "ContactPlan", "satrec_for", "site_table", "contact_plan"]
+__all__ = ["ELEVATION_GRID_DEG", "DEFAULT_BIN_EDGES_DEG", "SECONDS_PER_DAY", "ContactPlan", "satrec_for", "site_table",
+           "contact_plan"]
 
 #: Elevation bins of the histograms when the scenario gives none [deg].
 #: The elevation grid [deg] of the contact histograms and of the margin-vs-elevation evidence; it starts at
