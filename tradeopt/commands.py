@@ -19,7 +19,7 @@ def _scenario_inputs(scenario_path, scenario) -> list:
     """The files and folders a scenario run reads: the results folder must not be or hold any of them."""
     catalog = getattr(scenario, "catalog", None)
     return [scenario_path, getattr(catalog, "directory", None),
-            *(p.get("compression_sample_file") for p in scenario.payloads)]
+            *(p.compression_sample_file for p in scenario.payloads)]
 
 
 def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=False) -> int:

@@ -327,7 +327,7 @@ def test_arq_stop_and_wait_with_a_window_is_one_line_exit_2(tmp_path, capsys):
 def test_arq_stop_and_wait_with_a_window_of_one_frame_is_accepted():
     # Catches: an over-eager check (a window of one frame is what stop-and-wait is; Stallings).
     sc, _ = _volume_scenario("rate_bps = 1e6", 'scheme = "stop-and-wait"\nwindow_frames = 1')
-    assert sc.arq["window_frames"] == 1
+    assert sc.arq.window_frames == 1
 
 
 def test_settings_unused_under_a_daily_volume_give_a_note():

@@ -94,7 +94,7 @@ def _scenario(storage_bits: float = 3.0e11):
 
 
 def _hand_plan(scenario) -> ContactPlan:
-    start = np.datetime64(scenario.contacts["start_utc"], "ns")
+    start = np.datetime64(scenario.contacts.start_utc, "ns")
     rows = []
     for d in range(DAYS):
         day = d * DAY_S

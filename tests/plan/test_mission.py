@@ -82,7 +82,7 @@ def test_network_choice_matches_enumeration(trade):
     net = m.network
     assert net is not None and net.status == "optimal"
     plan = m.contacts
-    slot = trade.scenario.network["slot_s"]
+    slot = trade.scenario.network.slot_s
     n_slots = int(np.ceil(plan.days * 86400.0 / slot))
     cand = [i for i, s in enumerate(plan.sites) if s.cost_per_year is not None]
     cover = np.zeros((len(cand), n_slots))  # fraction of each slot inside a pass (one-second resolution)

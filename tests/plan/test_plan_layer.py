@@ -116,7 +116,7 @@ def test_build_band_space_works_on_a_fresh_scenario():
     # Catches: build_band_space reading scenario.rate_bps / scenario.site_geometry, which were None or
     # empty unless schedule.prepare had run on the same object first.
     sc = load_scenario(None)  # a daily volume from the payloads: no rate in the inputs
-    assert sc.requirement["rate_bps"] is None
+    assert sc.requirement.rate_bps is None
     plan = plan_mission(sc)
     space = build_band_space(sc, "X-DOWN", plan)
     assert space.rate_bps == plan.rate_bps and space.geometry is plan.geometry

@@ -226,7 +226,7 @@ def test_default_storage_window_is_at_least_30_days_and_covers_the_ground_track_
     data = tomllib.loads(TLE_TOML.format(start="2027-01-01T00:00:00"))
     del data["contacts"]["days"]  # the default contact window, 7 days
     sc = scenario_from_dict(data, file="<test>")
-    assert sc.contacts["days"] == 7.0
+    assert sc.contacts.days == 7.0
     ctx = plan_mission.plan_mission(sc)
     st = ctx.storage
     assert st.gap_window_days >= orb.GAP_WINDOW_MIN_DAYS

@@ -64,7 +64,7 @@ def test_infeasible_and_mission_unmet_statuses():
     with pytest.raises(ValueError, match="no budget"):
         none.budget()
     default = load_scenario(None)
-    small = optimize(dataclasses.replace(default, requirement=dict(default.requirement, storage_bits=1.0e9)),
+    small = optimize(dataclasses.replace(default, requirement=dataclasses.replace(default.requirement, storage_bits=1.0e9)),
                      sizing=False, keep_designs=False)
     assert small.status == TradeStatus.MISSION_UNMET and not small.success and small.best is not None
     assert "onboard storage" in small.message

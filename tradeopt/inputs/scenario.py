@@ -13,9 +13,28 @@ from importlib import resources
 from itertools import pairwise
 from pathlib import Path
 
+from ..physics.units import EARTH_RADIUS_M
 from .catalog import Catalog, load_catalog
 from .errors import InputError
-from .schema import MISSING, Field, check_known, convert, read_toml
+from .scenario_types import (
+    Arq,
+    CircularOrbit,
+    Coding,
+    ContactWindow,
+    ElementsOrbit,
+    FixedRange,
+    Framing,
+    GeostationaryOrbit,
+    Network,
+    Options,
+    Orbit,
+    PayloadSpec,
+    Requirement,
+    Site,
+    TleOrbit,
+)
+from .schema import Field, check_known, convert, read_toml
+from .tables import catalog_dir, check_ids, read_table, read_table_array
 
 __all__ = ["Scenario", "Site", "SCENARIO_SCHEMA", "load_scenario", "scenario_from_dict", "DEFAULT_SCENARIO_NAME",
            "POWER_MASS_KG_PER_W_DEFAULT"]
@@ -137,27 +156,14 @@ _TOP = list(SCENARIO_SCHEMA) + ["sites", "bandwidth_limits_hz", "payloads"]
 
 
 @dataclass(frozen=True)
-class Site:
-    """A ground site (position [deg, m], elevation mask [deg])."""
-
-    id: str
-    name: str
-    latitude_deg: float
-    longitude_deg: float
-    altitude_m: float
-    min_elevation_deg: float
-    required: bool = True
-    cost_per_year: float | None = None
-
-
-@dataclass(frozen=True)
 class Scenario:
     """A validated scenario, with the catalog it uses (already filtered by its options).
 
-    Frozen: what is planned from it (the required rate, the geometry of each site's link) lives in
-    :class:`tradeopt.plan.mission.MissionPlan`, never in the scenario. ``altitude_m`` and ``range_m``
-    are the orbit as given ([m]; ``altitude_m`` is None for a TLE, a geostationary slot or a fixed
-    range); the information rate is ``requirement["rate_bps"]`` when given [bit/s].
+    Frozen, and so is each of its tables (the dataclasses of :mod:`tradeopt.inputs.scenario_types`):
+    what is planned from it (the required rate, the geometry of each site's link) lives in
+    :class:`tradeopt.plan.mission.MissionPlan`, never in the scenario. ``orbit`` is one object per
+    orbit form, its altitudes above the mean Earth radius; the information rate is
+    ``requirement.rate_bps`` when given [bit/s].
     """
 
     name: str
@@ -169,8 +175,15 @@ class Scenario:
     band_ids: list
     sites: list
     catalog: Catalog
-    altitude_m: float | None = None
-    range_m: float | None = None
+    orbit: Orbit
+    requirement: Requirement
+    contacts: ContactWindow
+    framing: Framing
+    arq: Arq
+    coding: Coding
+    network: Network
+    options: Options
+    payloads: tuple[PayloadSpec, ...] = ()
     implementation_loss_db: float = 0.0
     polarization_loss_db: float = 0.0
     other_losses_db: float = 0.0
@@ -179,17 +192,8 @@ class Scenario:
     max_dc_power_w: float = float("inf")
     power_mass_kg_per_w: float = POWER_MASS_KG_PER_W_DEFAULT
     bandwidth_limits_hz: dict = field(default_factory=dict)
-    options: dict = field(default_factory=dict)
     dish_curve_max_diameter_m: float | None = None
     dish_curve_step_m: float = 0.25
-    orbit: dict = field(default_factory=dict)
-    requirement: dict = field(default_factory=dict)
-    contacts: dict = field(default_factory=dict)
-    payloads: list = field(default_factory=list)
-    framing: dict = field(default_factory=dict)
-    arq: dict = field(default_factory=dict)
-    coding: dict = field(default_factory=dict)
-    network: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)  # "NOTE: ..." lines: settings the requirement or orbit makes unused
     base_dir: Path | None = None
     file: str = DEFAULT_SCENARIO_NAME
@@ -197,16 +201,20 @@ class Scenario:
     @property
     def orbit_kind(self) -> str:
         """``"elements"``, ``"tle"``, ``"geostationary"``, ``"circular"`` (altitude only) or ``"range"``."""
-        o = self.orbit
-        if o.get("tle_line1"):
-            return "tle"
-        if o.get("geostationary_longitude_deg") is not None:
-            return "geostationary"
-        if o.get("range_m") is not None:
-            return "range"
-        if o.get("inclination_deg") is not None:
-            return "elements"
-        return "circular"
+        return self.orbit.kind
+
+    @property
+    def altitude_m(self) -> float | None:
+        """Mean altitude [m] above the mean Earth radius of an orbit given by altitude or elements.
+
+        None for a TLE, a geostationary slot or a fixed range.
+        """
+        return self.orbit.altitude_m
+
+    @property
+    def range_m(self) -> float | None:
+        """The fixed range [m] (deep space); None for every other orbit form."""
+        return self.orbit.range_m if isinstance(self.orbit, FixedRange) else None
 
     @property
     def percent_of_year(self) -> float:
@@ -214,98 +222,128 @@ class Scenario:
         return 100.0 - self.availability_percent
 
 
-def _table(data: dict, name: str, file: str) -> dict:
-    raw = data.get(name, {})
-    if not isinstance(raw, dict):
-        raise InputError(f"expected a table [{name}]", file=file, where=f"key {name}")
-    check_known(raw.keys(), [f.name for f in SCENARIO_SCHEMA[name]], file=file, where=f"table [{name}]", what="key")
-    return {f.name: convert(raw.get(f.name, MISSING), f, file=file, where=f"key [{name}] {f.name}", typed=True)
-            for f in SCENARIO_SCHEMA[name]}
-
-
-def _check_ids(ids, table, column: str, *, file: str, where: str, what: str) -> None:
-    import difflib  # noqa: PLC0415
-
-    known = sorted(set(table[column]))
-    for i in ids:
-        if i not in known:
-            hint = difflib.get_close_matches(i, known, n=1)
-            tip = f"; did you mean {hint[0]!r}?" if hint else f"; known: {', '.join(known)}"
-            raise InputError(f"unknown {what} {i!r}{tip}", file=file, where=where)
+def _read(data: dict, name: str, file: str) -> dict:
+    """The table ``[name]`` of the scenario, converted key by key."""
+    return read_table(data, name, SCENARIO_SCHEMA[name], file=file)
 
 
 def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_dir: Path | None = None,
                        catalog: Catalog | None = None) -> Scenario:
     """Validate a parsed scenario and resolve its catalog.
 
+    Each table has its builder below; they run in a fixed order, so the first problem is reported.
+
     Raises
     ------
     InputError
         The first problem, naming the file and key.
     """
-    from ..physics import propagation  # noqa: PLC0415  (validity ranges only; itur is not imported)
-    from ..physics.validity import ModelRangeError  # noqa: PLC0415
-
     check_known(data.keys(), _TOP, file=file, where="top level", what="table")
     if "scenario" not in data:
         raise InputError("missing table [scenario]", file=file, where="table [scenario]")
-    sc = _table(data, "scenario", file)
-    orbit = _table(data, "orbit", file)
-    req = _table(data, "requirement", file)
-    link = _table(data, "link", file)
-    craft = _table(data, "spacecraft", file)
-    opts = _table(data, "options", file)
+    sc, orbit_v, req_v, link, craft, opts_v = (_read(data, n, file) for n in
+                                               ("scenario", "orbit", "requirement", "link", "spacecraft", "options"))
+    _check_availability(sc["availability_percent"], file)
+    orbit = _orbit(orbit_v, _written(data, "orbit"), file)
+    contacts = _contact_window(_read(data, "contacts", file), file)
+    framing = Framing(**_read(data, "framing", file))
+    arq = _arq(_read(data, "arq", file), file)
+    coding = Coding(**_read(data, "coding", file))
+    network = Network(**_read(data, "network", file))
+    requirement = _requirement(req_v, orbit, file)
+    payloads = _payloads(data, file, base_dir)
+    if requirement.volume_from_demand and not payloads:
+        raise InputError("volume_from_demand = true needs at least one [[payloads]] table", file=file,
+                         where="key [requirement] volume_from_demand")
+    sites = _sites(data, file)
+    notes = _unused_settings(data, requirement, arq, sites, orbit)
+    if catalog is None:
+        catalog = load_catalog(catalog_dir(sc["catalogs"], base_dir, file=file, where="key [scenario] catalogs",
+                                           relative_to="the scenario file"))
+    _check_bands(sc["bands"], sc["direction"], catalog, file)
+    options = _options(opts_v, catalog, file)
+    limits = _bandwidth_limits(data, sc["bands"], file)
+    return Scenario(
+        name=sc["name"], description=sc["description"], objective=sc["objective"], direction=sc["direction"],
+        availability_percent=sc["availability_percent"], required_margin_db=sc["required_margin_db"],
+        band_ids=list(sc["bands"]), sites=sites, catalog=catalog, orbit=orbit, requirement=requirement,
+        contacts=contacts, framing=framing, arq=arq, coding=coding, network=network, options=options,
+        payloads=payloads, bandwidth_limits_hz=limits,
+        implementation_loss_db=link["implementation_loss_db"], polarization_loss_db=link["polarization_loss_db"],
+        other_losses_db=link["other_losses_db"], polarization_tilt_deg=link["polarization_tilt_deg"],
+        max_comm_mass_kg=craft["max_comm_mass_kg"], max_dc_power_w=craft["max_dc_power_w"],
+        power_mass_kg_per_w=craft["power_mass_kg_per_w"],
+        dish_curve_max_diameter_m=opts_v["dish_curve_max_diameter_m"], dish_curve_step_m=opts_v["dish_curve_step_m"],
+        base_dir=base_dir, file=file, notes=notes)
+
+
+def _written(data: dict, name: str) -> set:
+    """The keys written in the file's table ``[name]`` (empty when the table is absent)."""
+    raw = data.get(name, {})
+    return set(raw) if isinstance(raw, dict) else set()
+
+
+def _check_availability(availability_percent: float, file: str) -> None:
+    """The availability within the validity of the propagation models (ITU-R P.618)."""
+    from ..physics import propagation  # noqa: PLC0415  (validity ranges only; itur is not imported)
+    from ..physics.validity import ModelRangeError  # noqa: PLC0415
 
     try:
-        propagation.check_inputs(percent_of_year=100.0 - sc["availability_percent"])
+        propagation.check_inputs(percent_of_year=100.0 - availability_percent)
     except ModelRangeError as exc:
         lo, hi = 100.0 - exc.high, 100.0 - exc.low
-        raise InputError(f"availability_percent = {sc['availability_percent']:g} is outside the validity of "
+        raise InputError(f"availability_percent = {availability_percent:g} is outside the validity of "
                          f"{exc.model} ({lo:g} to {hi:g}); choose a value in that range", file=file,
                          where="key [scenario] availability_percent") from None
 
-    _check_orbit(orbit, file, written=set(data.get("orbit", {})))
-    contacts = _table(data, "contacts", file)
-    framing = _table(data, "framing", file)
-    arq = _table(data, "arq", file)
-    coding = _table(data, "coding", file)
-    network = _table(data, "network", file)
-    edges = contacts["elevation_bin_edges_deg"]
+
+def _contact_window(v: dict, file: str) -> ContactWindow:
+    """``[contacts]``: increasing bin edges within 0 to 90 deg, and a UTC start time."""
+    edges = v["elevation_bin_edges_deg"]
     if edges is not None:
         if len(edges) < 2 or any(b <= a for a, b in pairwise(edges)) or edges[0] < 0 or edges[-1] > 90:
             raise InputError("expected at least two increasing elevations between 0 and 90 deg", file=file,
                              where="key [contacts] elevation_bin_edges_deg")
-    _check_time(contacts["start_utc"], file, "key [contacts] start_utc")
-    if orbit["epoch_utc"] is not None:
-        _check_time(orbit["epoch_utc"], file, "key [orbit] epoch_utc")
-    volume_keys = [k for k in ("rate_bps", "daily_volume_bits") if req[k] is not None]
-    if req["volume_from_demand"]:
+    _check_time(v["start_utc"], file, "key [contacts] start_utc")
+    return ContactWindow(start_utc=v["start_utc"], days=v["days"], step_s=v["step_s"],
+                         elevation_bin_edges_deg=None if edges is None else tuple(edges))
+
+
+def _arq(v: dict, file: str) -> Arq:
+    """``[arq]``: stop-and-wait has a window of one frame."""
+    if v["scheme"] == "stop-and-wait" and v["window_frames"] is not None and v["window_frames"] != 1:
+        raise InputError(f"window_frames = {v['window_frames']:g} does not apply to stop-and-wait, whose window is "
+                         "one frame; remove window_frames, or use scheme = \"go-back-n\" or \"selective-repeat\"",
+                         file=file, where="key [arq] window_frames")
+    return Arq(**v)
+
+
+def _requirement(v: dict, orbit: Orbit, file: str) -> Requirement:
+    """``[requirement]``: exactly one of rate, daily volume or demand; a volume needs contacts; storage a volume."""
+    volume_keys = [k for k in ("rate_bps", "daily_volume_bits") if v[k] is not None]
+    if v["volume_from_demand"]:
         volume_keys.append("volume_from_demand")
     if len(volume_keys) != 1:
         raise InputError("give exactly one of rate_bps, daily_volume_bits or volume_from_demand = true", file=file,
                          where="table [requirement]")
-    propagated = (bool(orbit["tle_line1"]) or orbit["geostationary_longitude_deg"] is not None
-                  or orbit["inclination_deg"] is not None)
-    if req["rate_bps"] is None and not propagated:
-        given = ("only range_m" if orbit["range_m"] is not None else
+    if v["rate_bps"] is None and not orbit.has_contacts:
+        given = ("only range_m" if isinstance(orbit, FixedRange) else
                  "altitude_m or semi_major_axis_m without inclination_deg (a circular orbit over a spherical "
                  "Earth, which has no passes)")
         raise InputError(f"a daily volume needs contact time: give an orbit that can be propagated (elements with "
                          f"inclination_deg, a TLE or a geostationary longitude), not {given}", file=file,
                          where="table [orbit]")
-    if req["storage_bits"] is not None and req["rate_bps"] is not None:
+    if v["storage_bits"] is not None and v["rate_bps"] is not None:
         raise InputError("storage_bits is checked against the data generated during the worst gap between "
                          "contacts, which needs a daily volume: give daily_volume_bits or volume_from_demand = true "
                          "instead of rate_bps, or remove storage_bits", file=file,
                          where="key [requirement] storage_bits")
-    if arq["scheme"] == "stop-and-wait" and arq["window_frames"] is not None and arq["window_frames"] != 1:
-        raise InputError(f"window_frames = {arq['window_frames']:g} does not apply to stop-and-wait, whose window is "
-                         "one frame; remove window_frames, or use scheme = \"go-back-n\" or \"selective-repeat\"",
-                         file=file, where="key [arq] window_frames")
-    payloads = _payloads(data, file, base_dir)
-    if req["volume_from_demand"] and not payloads:
-        raise InputError("volume_from_demand = true needs at least one [[payloads]] table", file=file,
-                         where="key [requirement] volume_from_demand")
+    return Requirement(**v)
+
+
+def _sites(data: dict, file: str) -> list[Site]:
+    """``[[sites]]``: at least one, unique IDs, masks within the propagation models, one required."""
+    from ..physics import propagation  # noqa: PLC0415  (validity ranges only; itur is not imported)
 
     raw_sites = data.get("sites")
     if isinstance(raw_sites, dict):
@@ -313,100 +351,84 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
                          file=file, where="table [[sites]]")
     if not isinstance(raw_sites, list) or not raw_sites:
         raise InputError("missing; give at least one [[sites]] table", file=file, where="table [[sites]]")
-    sites = []
-    seen = set()
-    for i, s in enumerate(raw_sites, start=1):
+    sites: list[Site] = []
+    for i, v in enumerate(read_table_array(data, "sites", _SITE_FIELDS, file=file), start=1):
         where_t = f"[[sites]] #{i}"
-        if not isinstance(s, dict):
-            raise InputError("expected a table", file=file, where=where_t)
-        check_known(s.keys(), [f.name for f in _SITE_FIELDS], file=file, where=where_t, what="key")
-        v = {f.name: convert(s.get(f.name, MISSING), f, file=file, where=f"key {where_t} {f.name}", typed=True)
-             for f in _SITE_FIELDS}
-        if v["id"] in seen:
+        if any(s.id == v["id"] for s in sites):
             raise InputError(f"duplicate site id {v['id']!r}", file=file, where=f"key {where_t} id")
-        seen.add(v["id"])
         if v["min_elevation_deg"] < propagation.ELEVATION_RANGE_DEG[0]:
             raise InputError(f"min_elevation_deg = {v['min_elevation_deg']:g} is below the "
                              f"{propagation.ELEVATION_RANGE_DEG[0]:g} deg for which ITU-R P.676-12 Annex 2 and "
                              "P.618-13 scintillation are stated; raise the mask", file=file,
                              where=f"key {where_t} min_elevation_deg")
-        v["name"] = v["name"] or v["id"]
-        sites.append(Site(**v))
+        sites.append(Site(**{**v, "name": v["name"] or v["id"]}))
     if not any(s.required for s in sites):
         raise InputError("no site has required = true; at least one site must close the link", file=file,
                          where="table [[sites]]")
-    notes = _unused_settings(data, req, arq, sites, propagated=propagated,
-                             orbit_form=("range_m" if orbit["range_m"] is not None
-                                         else "altitude_m without inclination_deg"))
+    return sites
 
-    if catalog is None:
-        cat_dir = sc["catalogs"]
-        if cat_dir is not None and base_dir is not None:
-            cat_dir = str(base_dir / cat_dir)
-        if cat_dir is not None and not Path(cat_dir).is_dir():
-            raise InputError(f"catalog folder {cat_dir!r} not found; expected a folder of CSV catalogs (relative to "
-                             "the scenario file)", file=file, where="key [scenario] catalogs")
-        catalog = load_catalog(cat_dir)
-    _check_ids(sc["bands"], catalog.bands, "band_id", file=file, where="key [scenario] bands", what="band")
-    for i, b in enumerate(sc["bands"]):
-        if b in sc["bands"][:i]:
-            raise InputError(f"band {b!r} is listed twice; expected each band once", file=file,
-                             where="key [scenario] bands")
-    bands = catalog.bands.set_index("band_id")
-    for b in sc["bands"]:
-        if bands.loc[b, "direction"] != sc["direction"]:
-            raise InputError(f"band {b!r} is a {bands.loc[b, 'direction']} band; the scenario is a {sc['direction']}",
-                             file=file, where="key [scenario] bands")
+
+def _check_bands(bands: list, direction: str, catalog: Catalog, file: str) -> None:
+    """``[scenario] bands``: known IDs, each once, of the scenario's direction, within the models' frequencies."""
+    from ..physics import propagation  # noqa: PLC0415  (validity ranges only; itur is not imported)
+    from ..physics.validity import ModelRangeError  # noqa: PLC0415
+
+    where = "key [scenario] bands"
+    check_ids(bands, catalog.bands, "band_id", file=file, where=where, what="band")
+    for i, b in enumerate(bands):
+        if b in bands[:i]:
+            raise InputError(f"band {b!r} is listed twice; expected each band once", file=file, where=where)
+    table = catalog.bands.set_index("band_id")
+    for b in bands:
+        if table.loc[b, "direction"] != direction:
+            raise InputError(f"band {b!r} is a {table.loc[b, 'direction']} band; the scenario is a {direction}",
+                             file=file, where=where)
         try:
-            propagation.check_inputs(frequency_hz=float(bands.loc[b, "centre_frequency_hz"]))
+            propagation.check_inputs(frequency_hz=float(table.loc[b, "centre_frequency_hz"]))
         except ModelRangeError as exc:
-            raise InputError(f"band {b!r}: {exc}", file=file, where="key [scenario] bands") from None
-    for key, table, column, what in (("ground_antennas", catalog.ground_antennas, "ground_antenna_id",
-                                      "ground antenna"),
-                                     ("spacecraft_antennas", catalog.spacecraft_antennas, "spacecraft_antenna_id",
-                                      "spacecraft antenna"),
-                                     ("amplifiers", catalog.amplifiers, "amplifier_id", "amplifier"),
-                                     ("modcods", catalog.modcods, "modcod_id", "modcod")):
-        if opts[key] is not None:
-            _check_ids(opts[key], table, column, file=file, where=f"key [options] {key}", what=what)
+            raise InputError(f"band {b!r}: {exc}", file=file, where=where) from None
 
-    d_max = opts["dish_curve_max_diameter_m"]
-    if d_max is not None and opts["dish_curve_step_m"] > d_max:
-        raise InputError(f"dish_curve_step_m = {opts['dish_curve_step_m']:g} m exceeds dish_curve_max_diameter_m = "
-                         f"{opts['dish_curve_max_diameter_m']:g} m, so the dish curve would have no point; give a "
-                         "smaller step", file=file, where="key [options] dish_curve_step_m")
 
+#: ``[options]`` key -> (catalog table, ID column, what an item is called in messages).
+_OPTION_IDS = {"ground_antennas": ("ground_antennas", "ground_antenna_id", "ground antenna"),
+               "spacecraft_antennas": ("spacecraft_antennas", "spacecraft_antenna_id", "spacecraft antenna"),
+               "amplifiers": ("amplifiers", "amplifier_id", "amplifier"),
+               "modcods": ("modcods", "modcod_id", "modcod")}
+
+
+def _options(v: dict, catalog: Catalog, file: str) -> Options:
+    """``[options]``: known catalog IDs, and a dish-curve step no larger than its largest diameter."""
+    for key, (table, column, what) in _OPTION_IDS.items():
+        if v[key] is not None:
+            check_ids(v[key], getattr(catalog, table), column, file=file, where=f"key [options] {key}", what=what)
+    d_max = v["dish_curve_max_diameter_m"]
+    if d_max is not None and v["dish_curve_step_m"] > d_max:
+        raise InputError(f"dish_curve_step_m = {v['dish_curve_step_m']:g} m exceeds dish_curve_max_diameter_m = "
+                         f"{d_max:g} m, so the dish curve would have no point; give a smaller step", file=file,
+                         where="key [options] dish_curve_step_m")
+    return Options(**{k: None if v[k] is None else tuple(v[k]) for k in _OPTION_IDS})
+
+
+def _bandwidth_limits(data: dict, bands: list, file: str) -> dict:
+    """``[bandwidth_limits_hz]``: band ID of the scenario -> bandwidth limit [Hz]."""
     limits_raw = data.get("bandwidth_limits_hz", {})
     if not isinstance(limits_raw, dict):
         raise InputError("expected a table of band ID = bandwidth in Hz", file=file,
                          where="table [bandwidth_limits_hz]")
     limits = {}
     for b, value in limits_raw.items():
-        if b not in sc["bands"]:
-            raise InputError(f"band {b!r} is not one of the scenario's bands ({', '.join(sc['bands'])})", file=file,
-                             where=f"key [bandwidth_limits_hz] {b}")
-        limits[b] = convert(value, Field(b, unit="Hz", **_pos), file=file, where=f"key [bandwidth_limits_hz] {b}",
-                            typed=True)
-
-    return Scenario(
-        name=sc["name"], description=sc["description"], objective=sc["objective"], direction=sc["direction"],
-        availability_percent=sc["availability_percent"], required_margin_db=sc["required_margin_db"],
-        band_ids=list(sc["bands"]), sites=sites, catalog=catalog,
-        altitude_m=_altitude_of(orbit), range_m=orbit["range_m"],
-        implementation_loss_db=link["implementation_loss_db"], polarization_loss_db=link["polarization_loss_db"],
-        other_losses_db=link["other_losses_db"], polarization_tilt_deg=link["polarization_tilt_deg"],
-        max_comm_mass_kg=craft["max_comm_mass_kg"], max_dc_power_w=craft["max_dc_power_w"],
-        power_mass_kg_per_w=craft["power_mass_kg_per_w"], bandwidth_limits_hz=limits,
-        options={k: opts[k] for k in ("ground_antennas", "spacecraft_antennas", "amplifiers", "modcods")},
-        dish_curve_max_diameter_m=opts["dish_curve_max_diameter_m"], dish_curve_step_m=opts["dish_curve_step_m"],
-        orbit=orbit, requirement=req, contacts=contacts, payloads=payloads, framing=framing, arq=arq,
-        coding=coding, network=network, base_dir=base_dir, file=file, notes=notes)
+        where = f"key [bandwidth_limits_hz] {b}"
+        if b not in bands:
+            raise InputError(f"band {b!r} is not one of the scenario's bands ({', '.join(bands)})", file=file,
+                             where=where)
+        limits[b] = convert(value, Field(b, unit="Hz", **_pos), file=file, where=where, typed=True)
+    return limits
 
 
-def _unused_settings(data: dict, req: dict, arq: dict, sites: list, *, propagated: bool, orbit_form: str) -> list[str]:
+def _unused_settings(data: dict, req: Requirement, arq: Arq, sites: list, orbit: Orbit) -> list[str]:
     """One note per group of settings that the requirement or the orbit makes unused (never ignored silently)."""
     notes = []
-    given = next((k for k in ("rate_bps", "daily_volume_bits") if req[k] is not None), None)
+    given = next((k for k in ("rate_bps", "daily_volume_bits") if getattr(req, k) is not None), None)
     if given is not None:
         tables = [("[[payloads]]" if t == "payloads" else f"[{t}]") for t in ("payloads", "framing", "arq", "coding")
                   if t in data]
@@ -414,14 +436,15 @@ def _unused_settings(data: dict, req: dict, arq: dict, sites: list, *, propagate
             notes.append(f"NOTE: {', '.join(tables)} not used by optimize: [requirement] {given} is given, so the "
                          "demand steps only feed 'tradeopt demand'")
     written_arq = data.get("arq", {}) if isinstance(data.get("arq"), dict) else {}
-    if arq["scheme"] == "none":
+    if arq.scheme == "none":
         keys = [k for k in ("frame_error_rate", "window_frames") if k in written_arq]
         if keys:
             notes.append(f"NOTE: [arq] {' and '.join(keys)} not used: the ARQ scheme is \"none\"")
-    if not propagated and "contacts" in data:
+    if not orbit.has_contacts and "contacts" in data:
+        orbit_form = "range_m" if isinstance(orbit, FixedRange) else "altitude_m without inclination_deg"
         notes.append(f"NOTE: [contacts] not used: the orbit ({orbit_form}) is not propagated, so there are no "
                      "passes")
-    if req["rate_bps"] is not None:
+    if req.rate_bps is not None:
         costed = [s.id for s in sites if s.cost_per_year is not None]
         unused = ([f"cost_per_year of {', '.join(costed)}"] if costed else []) + (["[network]"] if "network" in data
                                                                                   else [])
@@ -464,113 +487,123 @@ def _check_time(text: str, file: str, where: str) -> None:
                          where=where)
 
 
-def _altitude_of(orbit: dict) -> float | None:
-    """Altitude [m] of a circular orbit for the spherical-Earth range (None for other kinds)."""
-    from ..physics.units import EARTH_RADIUS_M  # noqa: PLC0415
-
-    if orbit["altitude_m"] is not None:
-        return orbit["altitude_m"]
-    if orbit["semi_major_axis_m"] is not None:
-        return orbit["semi_major_axis_m"] - EARTH_RADIUS_M
-    return None
-
-
-def _check_orbit(orbit: dict, file: str, written: set | None = None) -> None:
-    """Exactly one orbit form, with the keys it needs and only those.
+def _orbit(v: dict, written: set, file: str) -> Orbit:
+    """``[orbit]``: exactly one form, with the keys it needs and only those, as its typed object.
 
     ``written`` holds the keys written in the file's [orbit] table: a key with a default
     (``raan_deg``, ``argument_of_perigee_deg``, ``mean_anomaly_deg``) that does not apply
     to the orbit form is an error, never silently ignored.
     """
-    written = set() if written is None else written
     forms = {
-        "elements": orbit["altitude_m"] is not None or orbit["semi_major_axis_m"] is not None,
-        "tle": bool(orbit["tle_line1"] or orbit["tle_line2"]),
-        "geostationary": orbit["geostationary_longitude_deg"] is not None,
-        "range": orbit["range_m"] is not None,
+        "elements": v["altitude_m"] is not None or v["semi_major_axis_m"] is not None,
+        "tle": bool(v["tle_line1"] or v["tle_line2"]),
+        "geostationary": v["geostationary_longitude_deg"] is not None,
+        "range": v["range_m"] is not None,
     }
-    given = [k for k, v in forms.items() if v]
+    given = [k for k, is_given in forms.items() if is_given]
     if len(given) != 1:
         raise InputError("give exactly one orbit: altitude_m or semi_major_axis_m (with elements), tle_line1 and "
                          "tle_line2, geostationary_longitude_deg, or range_m", file=file, where="table [orbit]")
-    kind = given[0]
-    if kind == "elements":
-        if orbit["altitude_m"] is not None and orbit["semi_major_axis_m"] is not None:
-            raise InputError("give altitude_m or semi_major_axis_m, not both", file=file, where="table [orbit]")
-        e = orbit["eccentricity"] or 0.0
-        if e > 0.0 and orbit["inclination_deg"] is None:
-            raise InputError("an elliptical orbit needs inclination_deg (and its other elements)", file=file,
-                             where="key [orbit] inclination_deg")
-        from ..physics.units import EARTH_RADIUS_M  # noqa: PLC0415
+    form = given[0]
+    builders = {"elements": _elements_orbit, "tle": _tle_orbit,
+                "geostationary": lambda v, file: GeostationaryOrbit(longitude_deg=v["geostationary_longitude_deg"]),
+                "range": lambda v, file: FixedRange(range_m=v["range_m"])}
+    orbit = builders[form](v, file)
+    _check_orbit_keys(v, form, written, file)
+    if isinstance(orbit, ElementsOrbit) and orbit.epoch_utc is not None:
+        _check_time(orbit.epoch_utc, file, "key [orbit] epoch_utc")
+    return orbit
 
-        a = (orbit["semi_major_axis_m"] if orbit["semi_major_axis_m"] is not None
-             else EARTH_RADIUS_M + orbit["altitude_m"])
-        perigee = a * (1.0 - e) - EARTH_RADIUS_M
-        if perigee < 100e3:
-            raise InputError(f"perigee altitude {perigee / 1e3:.0f} km is below 100 km (below the surface when "
-                             "negative); lower the eccentricity or raise the orbit", file=file,
-                             where="key [orbit] eccentricity")
-    elif kind == "tle":
-        if not (orbit["tle_line1"] and orbit["tle_line2"]):
-            raise InputError("a TLE needs both tle_line1 and tle_line2", file=file, where="table [orbit]")
-        from ..mission.orbit import satrec_from_tle  # noqa: PLC0415
 
-        try:
-            satrec_from_tle(orbit["tle_line1"], orbit["tle_line2"])
-        except ValueError as exc:
-            raise InputError(str(exc), file=file, where="key [orbit] tle_line1/tle_line2") from None
+def _elements_orbit(v: dict, file: str) -> ElementsOrbit | CircularOrbit:
+    """Elements (with ``inclination_deg``) or a circular orbit (altitude alone), perigee at least 100 km.
+
+    The altitude is above the mean Earth radius: the semi-major axis is ``EARTH_RADIUS_M + altitude_m``.
+    """
+    if v["altitude_m"] is not None and v["semi_major_axis_m"] is not None:
+        raise InputError("give altitude_m or semi_major_axis_m, not both", file=file, where="table [orbit]")
+    e = v["eccentricity"] or 0.0
+    if e > 0.0 and v["inclination_deg"] is None:
+        raise InputError("an elliptical orbit needs inclination_deg (and its other elements)", file=file,
+                         where="key [orbit] inclination_deg")
+    a = v["semi_major_axis_m"] if v["semi_major_axis_m"] is not None else EARTH_RADIUS_M + v["altitude_m"]
+    perigee = a * (1.0 - e) - EARTH_RADIUS_M
+    if perigee < 100e3:
+        raise InputError(f"perigee altitude {perigee / 1e3:.0f} km is below 100 km (below the surface when "
+                         "negative); lower the eccentricity or raise the orbit", file=file,
+                         where="key [orbit] eccentricity")
+    if v["inclination_deg"] is None:
+        return CircularOrbit(altitude_m=v["altitude_m"] if v["altitude_m"] is not None else a - EARTH_RADIUS_M)
+    return ElementsOrbit(semi_major_axis_m=a, eccentricity=e, inclination_deg=v["inclination_deg"],
+                         raan_deg=v["raan_deg"], argument_of_perigee_deg=v["argument_of_perigee_deg"],
+                         mean_anomaly_deg=v["mean_anomaly_deg"], epoch_utc=v["epoch_utc"])
+
+
+def _tle_orbit(v: dict, file: str) -> TleOrbit:
+    """Both TLE lines, read by sgp4; its semi-major axis converted to metres here (the sgp4 boundary)."""
+    if not (v["tle_line1"] and v["tle_line2"]):
+        raise InputError("a TLE needs both tle_line1 and tle_line2", file=file, where="table [orbit]")
+    from ..mission.orbit import satrec_from_tle  # noqa: PLC0415
+
+    try:
+        sat = satrec_from_tle(v["tle_line1"], v["tle_line2"])
+    except ValueError as exc:
+        raise InputError(str(exc), file=file, where="key [orbit] tle_line1/tle_line2") from None
+    return TleOrbit(tle_line1=v["tle_line1"], tle_line2=v["tle_line2"],
+                    semi_major_axis_m=sat.a * sat.radiusearthkm * 1000.0, eccentricity=float(sat.ecco))
+
+
+def _check_orbit_keys(v: dict, form: str, written: set, file: str) -> None:
+    """No key of another orbit form, and no element beside an altitude given without inclination_deg."""
     angles = ("raan_deg", "argument_of_perigee_deg", "mean_anomaly_deg")
-    others = () if kind == "elements" else ("eccentricity", "inclination_deg", "epoch_utc") + angles
+    others = () if form == "elements" else ("eccentricity", "inclination_deg", "epoch_utc") + angles
     for k in others:
-        if orbit[k] is not None and (k not in angles or k in written):
-            raise InputError(f"{k} does not apply to this orbit form ({kind})", file=file, where=f"key [orbit] {k}")
-    if kind == "elements" and orbit["inclination_deg"] is None:
+        if v[k] is not None and (k not in angles or k in written):
+            raise InputError(f"{k} does not apply to this orbit form ({form})", file=file, where=f"key [orbit] {k}")
+    if form == "elements" and v["inclination_deg"] is None:
         for k in angles + ("epoch_utc",):
-            if k in written and orbit[k] is not None:
+            if k in written and v[k] is not None:
                 raise InputError(f"{k} applies to a propagated orbit: give inclination_deg too (altitude_m alone is a "
                                  "circular orbit over a spherical Earth, with no elements)", file=file,
                                  where=f"key [orbit] {k}")
 
 
-def _payloads(data: dict, file: str, base_dir: Path | None) -> list:
-    raw = data.get("payloads", [])
-    if not isinstance(raw, list):
-        raise InputError("expected [[payloads]] tables", file=file, where="table [[payloads]]")
+def _payloads(data: dict, file: str, base_dir: Path | None) -> tuple[PayloadSpec, ...]:
+    """``[[payloads]]``: a raw rate or sampling parameters, a ratio or a sample file (resolved, non-empty)."""
     out = []
-    for i, p in enumerate(raw, start=1):
+    for i, v in enumerate(read_table_array(data, "payloads", _PAYLOAD_FIELDS, file=file), start=1):
         where_t = f"[[payloads]] #{i}"
-        if not isinstance(p, dict):
-            raise InputError("expected a table", file=file, where=where_t)
-        check_known(p.keys(), [f.name for f in _PAYLOAD_FIELDS], file=file, where=where_t, what="key")
-        v = {f.name: convert(p.get(f.name, MISSING), f, file=file, where=f"key {where_t} {f.name}", typed=True)
-             for f in _PAYLOAD_FIELDS}
+        sampling = (v["bits_per_sample"], v["signal_bandwidth_hz"], v["sampling_rate_hz"])
         if v["raw_rate_bps"] is None and (v["bits_per_sample"] is None or
                                           (v["signal_bandwidth_hz"] is None and v["sampling_rate_hz"] is None)):
             raise InputError("give raw_rate_bps, or bits_per_sample with signal_bandwidth_hz or sampling_rate_hz",
                              file=file, where=where_t)
-        if v["raw_rate_bps"] is not None and (v["bits_per_sample"] is not None or v["signal_bandwidth_hz"] is not None
-                                              or v["sampling_rate_hz"] is not None):
+        if v["raw_rate_bps"] is not None and any(x is not None for x in sampling):
             raise InputError("give raw_rate_bps or the sampling parameters, not both", file=file, where=where_t)
         if v["compression_ratio"] is not None and v["compression_sample_file"] is not None:
             raise InputError("give compression_ratio or compression_sample_file, not both", file=file, where=where_t)
         if v["compression_sample_file"] is not None:
-            sample = Path(v["compression_sample_file"])
-            if not sample.is_absolute() and base_dir is not None:
-                sample = base_dir / sample
-            if sample.exists() and not sample.is_file():
-                raise InputError(f"sample file {str(sample)!r} is not a file; give the path of a representative data "
-                                 "file (relative to the scenario) to measure its compression", file=file,
-                                 where=f"key {where_t} compression_sample_file")
-            if not sample.is_file():
-                raise InputError(f"sample file {str(sample)!r} does not exist; give the path of a representative "
-                                 "data file (relative to the scenario) to measure its compression", file=file,
-                                 where=f"key {where_t} compression_sample_file")
-            if sample.stat().st_size == 0:
-                raise InputError(f"sample file {str(sample)!r} is empty; a compression ratio cannot be measured",
-                                 file=file, where=f"key {where_t} compression_sample_file")
-            v["compression_sample_file"] = str(sample)
-        out.append(v)
-    return out
+            v["compression_sample_file"] = _sample_file(v["compression_sample_file"], base_dir, file=file,
+                                                        where=f"key {where_t} compression_sample_file")
+        out.append(PayloadSpec(**v))
+    return tuple(out)
+
+
+def _sample_file(name: str, base_dir: Path | None, *, file: str, where: str) -> str:
+    """The path of a compression sample file (relative to the scenario's folder): an existing, non-empty file."""
+    sample = Path(name)
+    if not sample.is_absolute() and base_dir is not None:
+        sample = base_dir / sample
+    if sample.exists() and not sample.is_file():
+        raise InputError(f"sample file {str(sample)!r} is not a file; give the path of a representative data "
+                         "file (relative to the scenario) to measure its compression", file=file, where=where)
+    if not sample.is_file():
+        raise InputError(f"sample file {str(sample)!r} does not exist; give the path of a representative "
+                         "data file (relative to the scenario) to measure its compression", file=file, where=where)
+    if sample.stat().st_size == 0:
+        raise InputError(f"sample file {str(sample)!r} is empty; a compression ratio cannot be measured",
+                         file=file, where=where)
+    return str(sample)
 
 
 def load_scenario(path: str | Path | None = None) -> Scenario:

@@ -45,7 +45,7 @@ def contacts_record(scenario, plan) -> dict:
         orbit["tle_source"] = ("synthetic: built from the scenario's orbital elements, not an observed element set"
                                if plan.kind == "elements" else "given in the scenario")
     if plan.kind == "geostationary":
-        orbit["geostationary_longitude_deg"] = scenario.orbit["geostationary_longitude_deg"]
+        orbit["geostationary_longitude_deg"] = scenario.orbit.longitude_deg
     network = {"contacts_per_day": float(net["contacts_per_day"]), "contact_s_per_day": float(net["contact_s_per_day"]),
                "mean_gap_s": float(net["mean_gap_s"]), "max_gap_s": float(net["max_gap_s"]),
                "visibility": "passes" if len(plan.passes) else "none"}

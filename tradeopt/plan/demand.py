@@ -11,7 +11,7 @@ import numpy as np
 from ..inputs.errors import InputError
 from ..mission import demand as dm
 from ..mission import orbit as orb
-from ..physics.units import EARTH_RADIUS_M, SPEED_OF_LIGHT_M_PER_S
+from ..physics.units import SPEED_OF_LIGHT_M_PER_S
 from .contacts import site_table
 
 __all__ = ["DemandPlan", "demand_plan", "longest_range_m"]
@@ -69,18 +69,13 @@ def longest_range_m(scenario) -> float:
     o = scenario.orbit
     kind = scenario.orbit_kind
     if kind == "range":
-        return float(o["range_m"])
+        return float(o.range_m)
     sites = scenario.sites
     if kind == "geostationary":
-        look = orb.geostationary_look_angles(o["geostationary_longitude_deg"], site_table(sites))
+        look = orb.geostationary_look_angles(o.longitude_deg, site_table(sites))
         seen = np.array([look.elevation_deg[i] >= s.min_elevation_deg for i, s in enumerate(sites)])
         return float(np.max(look.range_m[seen] if seen.any() else look.range_m))
-    if kind == "tle":
-        sat = orb.satrec_from_tle(o["tle_line1"], o["tle_line2"])
-        apogee_m = sat.a * sat.radiusearthkm * 1000.0 * (1.0 + sat.ecco) - EARTH_RADIUS_M
-    else:
-        a_m = o["semi_major_axis_m"] if o["semi_major_axis_m"] is not None else EARTH_RADIUS_M + o["altitude_m"]
-        apogee_m = a_m * (1.0 + (o["eccentricity"] or 0.0)) - EARTH_RADIUS_M
+    apogee_m = o.apogee_altitude_m  # above the mean Earth radius, as the spherical-Earth formula takes it
     lowest_mask_deg = min(s.min_elevation_deg for s in sites)
     return float(path.slant_range_m(apogee_m, lowest_mask_deg))
 
@@ -111,50 +106,50 @@ def demand_plan(scenario) -> DemandPlan:
                          file=scenario.file, where="table [[payloads]]")
     payloads, compression, quant = [], [], []
     for p in scenario.payloads:
-        ratio, measured, codec = p["compression_ratio"], None, "given"
-        if p["compression_sample_file"] is not None:
+        ratio, measured, codec = p.compression_ratio, None, "given"
+        if p.compression_sample_file is not None:
             try:
-                measured = dm.measure_compression(p["compression_sample_file"])
-                sample_bytes, file_bytes = dm.compression_sample_bytes(p["compression_sample_file"])
+                measured = dm.measure_compression(p.compression_sample_file)
+                sample_bytes, file_bytes = dm.compression_sample_bytes(p.compression_sample_file)
             except (OSError, ValueError) as exc:
                 raise InputError(str(exc), file=scenario.file,
                                  where="key [[payloads]] compression_sample_file") from None
-            codec = max(measured, key=measured.get) if p["compression_codec"] == "best" else p["compression_codec"]
+            codec = max(measured, key=measured.get) if p.compression_codec == "best" else p.compression_codec
             ratio = measured[codec]
         if ratio is None:
             ratio, codec = 1.0, "none"
-        compression.append({"name": p["name"], "compression_ratio": float(ratio), "codec": codec,
+        compression.append({"name": p.name, "compression_ratio": float(ratio), "codec": codec,
                             "measured": measured})
         if measured is not None:  # bytes measured (the first COMPRESSION_SAMPLE_BYTES at most) and file size
             compression[-1].update(sample_bytes=sample_bytes, sample_file_bytes=file_bytes)
-        if p["bits_per_sample"] is not None:
-            snr = float(dm.quantization_snr_db(p["bits_per_sample"]))
-            need = p["required_snr_db"]
-            quant.append({"name": p["name"], "bits_per_sample": p["bits_per_sample"], "quantization_snr_db": snr,
+        if p.bits_per_sample is not None:
+            snr = float(dm.quantization_snr_db(p.bits_per_sample))
+            need = p.required_snr_db
+            quant.append({"name": p.name, "bits_per_sample": p.bits_per_sample, "quantization_snr_db": snr,
                           "required_snr_db": need, "meets": None if need is None else snr >= need,
                           "bits_needed": None if need is None else int(dm.bits_for_snr(need))})
-        payloads.append(dm.Payload(name=p["name"], raw_rate_bps=p["raw_rate_bps"],
-                                   signal_bandwidth_hz=p["signal_bandwidth_hz"], sampling_rate_hz=p["sampling_rate_hz"],
-                                   sampling_factor=p["sampling_factor"], bits_per_sample=p["bits_per_sample"],
-                                   channels=p["channels"], duty_cycle=p["duty_cycle"], compression_ratio=ratio))
+        payloads.append(dm.Payload(name=p.name, raw_rate_bps=p.raw_rate_bps,
+                                   signal_bandwidth_hz=p.signal_bandwidth_hz, sampling_rate_hz=p.sampling_rate_hz,
+                                   sampling_factor=p.sampling_factor, bits_per_sample=p.bits_per_sample,
+                                   channels=p.channels, duty_cycle=p.duty_cycle, compression_ratio=ratio))
     fr = scenario.framing
-    f_eff = float(dm.frame_efficiency(frame_data_bytes=fr["frame_data_bytes"], header_bytes=fr["header_bytes"],
-                                      trailer_bytes=fr["trailer_bytes"]))
+    f_eff = float(dm.frame_efficiency(frame_data_bytes=fr.frame_data_bytes, header_bytes=fr.header_bytes,
+                                      trailer_bytes=fr.trailer_bytes))
     arq = scenario.arq
     a_eff = 1.0
-    if arq["scheme"] != "none":
-        rate = scenario.requirement.get("rate_bps") or scenario.network.get("rate_bps")
+    if arq.scheme != "none":
+        rate = scenario.requirement.rate_bps or scenario.network.rate_bps
         if rate is None:
             raise InputError("ARQ efficiency needs a link rate for the frame time: give [requirement] rate_bps or "
                              "[network] rate_bps", file=scenario.file, where="table [arq]")
-        frame_bits = 8.0 * (fr["frame_data_bytes"] + fr["header_bytes"] + fr["trailer_bytes"])
+        frame_bits = 8.0 * (fr.frame_data_bytes + fr.header_bytes + fr.trailer_bytes)
         round_trip = 2.0 * longest_range_m(scenario) / SPEED_OF_LIGHT_M_PER_S
-        a_eff = float(dm.arq_efficiency(arq["scheme"], frame_error_rate=arq["frame_error_rate"],
+        a_eff = float(dm.arq_efficiency(arq.scheme, frame_error_rate=arq.frame_error_rate,
                                         frame_time_s=frame_bits / rate, round_trip_s=round_trip,
-                                        window_frames=arq["window_frames"]))
+                                        window_frames=arq.window_frames))
     try:
         result = dm.demand_chain(payloads, frame_efficiency=f_eff, arq_efficiency=a_eff,
-                                 code_rate=scenario.coding["code_rate"])
+                                 code_rate=scenario.coding.code_rate)
     except ValueError as exc:
         raise InputError(str(exc), file=scenario.file, where="table [[payloads]]") from None
     warnings = []
@@ -165,10 +160,10 @@ def demand_plan(scenario) -> DemandPlan:
                             f"{dm.COMPRESSION_SAMPLE_BYTES / 2**20:g} MiB is measured); the ratio holds if that "
                             "start is representative")
     for p in scenario.payloads:
-        if p["sampling_rate_hz"] is not None and p["signal_bandwidth_hz"] is not None \
-                and dm.is_aliased(p["sampling_rate_hz"], p["signal_bandwidth_hz"]):
-            warnings.append(f"payload {p['name']!r}: sampling_rate_hz {p['sampling_rate_hz']:g} Hz is below "
-                            f"2 x signal_bandwidth_hz = {2 * p['signal_bandwidth_hz']:g} Hz: the signal aliases "
+        if p.sampling_rate_hz is not None and p.signal_bandwidth_hz is not None \
+                and dm.is_aliased(p.sampling_rate_hz, p.signal_bandwidth_hz):
+            warnings.append(f"payload {p.name!r}: sampling_rate_hz {p.sampling_rate_hz:g} Hz is below "
+                            f"2 x signal_bandwidth_hz = {2 * p.signal_bandwidth_hz:g} Hz: the signal aliases "
                             "(2.2 x bandwidth is common practice)")
     for q in quant:
         if q["meets"] is False:

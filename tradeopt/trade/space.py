@@ -233,13 +233,13 @@ def build_band_space(scenario, band_id: str, plan) -> BandSpace:
     letter = str(b["band"])
     f_hz = float(b["centre_frequency_hz"])
     opts = scenario.options
-    ground = _filter(cat.ground_antennas, "ground_antenna_id", opts.get("ground_antennas"))
+    ground = _filter(cat.ground_antennas, "ground_antenna_id", opts.ground_antennas)
     ground = ground[ground["band"] == letter].reset_index(drop=True)
-    craft = _filter(cat.spacecraft_antennas, "spacecraft_antenna_id", opts.get("spacecraft_antennas"))
+    craft = _filter(cat.spacecraft_antennas, "spacecraft_antenna_id", opts.spacecraft_antennas)
     craft = craft[craft["band"] == letter].reset_index(drop=True)
-    amps = _filter(cat.amplifiers, "amplifier_id", opts.get("amplifiers"))
+    amps = _filter(cat.amplifiers, "amplifier_id", opts.amplifiers)
     amps = amps[amps["band"] == letter].reset_index(drop=True)
-    mods = _filter(cat.modcods, "modcod_id", opts.get("modcods")).reset_index(drop=True)
+    mods = _filter(cat.modcods, "modcod_id", opts.modcods).reset_index(drop=True)
     notes = []
 
     # Ground axis: gain, pointing loss, clear-sky noise, and the worst required site.
