@@ -327,6 +327,7 @@ def test_existing_out_dir_is_left_unchanged_on_bad_input(tmp_path, capsys, expli
     assert sorted(p.name for p in tmp_path.iterdir()) == ["explicit_link.toml", "out"]
 
 
+@pytest.mark.slow  # a new process each (1 to 3 s; six of them); the in-process test above covers every file
 @pytest.mark.parametrize("name", ["malformed_toml", "string_for_number", "unit_typo_frequency_ghz",
                                   "unknown_modcod", "availability_90_site", "frequency_70ghz_site"])
 def test_bad_link_file_in_a_real_process(name, tmp_path):

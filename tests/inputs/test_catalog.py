@@ -117,6 +117,7 @@ def test_catalog_check_exits_0_on_bundled_catalogs(capsys):
     assert "all valid" in out and "modcods" in out
 
 
+@pytest.mark.slow  # two new processes (about 3 to 5 s)
 def test_catalog_check_subprocess_bundled_and_bad(cats):
     """A real process: exit 0 on the bundled catalogs; exit 2, one line, no traceback on a bad one."""
     ok = subprocess.run([sys.executable, "-m", "tradeopt.cli", "catalog", "check"], capture_output=True,

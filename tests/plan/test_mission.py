@@ -118,6 +118,7 @@ def test_demand_measures_compression_with_the_codecs():
     assert d.result.information_bits_per_day == pytest.approx(raw / d.frame_efficiency / d.arq_efficiency)
 
 
+@pytest.mark.slow  # a new process that propagates a day of passes (about 2 to 4 s)
 def test_contacts_json_has_the_documented_keys():
     out = subprocess.run([sys.executable, "-m", "tradeopt.cli", "contacts", "--days", "1", "--json"],
                          capture_output=True, text=True, check=True)
