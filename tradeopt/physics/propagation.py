@@ -13,11 +13,20 @@ This is the only module of tradeopt that imports :mod:`itur`. It
   ``hs`` is in km; an array of antenna diameters or efficiencies in its
   scintillation function gives an outer product, so apertures are looped as
   scalars; ``import itur`` changes numpy's error state, which is restored here,
-* evaluates a grid without calling itur once per point: in the approximate
-  mode of ITU-R P.676 and in ITU-R P.840 the gaseous and cloud attenuations
-  are a zenith quantity divided by sin(elevation), so they are computed once
-  per (site, frequency, percentage) and scaled; rain and scintillation are
-  evaluated for all elevations in one vectorized call.
+* evaluates a batch of points (:func:`slant_path_attenuation`, the batched
+  entry point; :func:`site_attenuation` and ``tradeopt.trade`` use it) in a few
+  vectorized itur calls, never once per point. Frequency and percentage are
+  the outer loops, as scalars (the trap above); inside, in the approximate mode
+  of ITU-R P.676 and in ITU-R P.840 the gaseous and cloud attenuations are a
+  reference quantity divided by sin(elevation), so they are computed once per
+  (site, frequency, max(p, 1)) and scaled; rain is one call over the distinct
+  elevations; scintillation is one call of itur's own P.618 model over every
+  (elevation, aperture) point, since its formula is element by element and
+  only the public wrapper takes the outer product,
+* memoizes the inputs that depend on the site, frequency and max(p, 1) only
+  (surface temperature and pressure, water vapour, the reference gas and
+  cloud terms), keyed by the Recommendation versions in use, so a trade that
+  evaluates the same site many times reads the maps once.
 
 The total attenuation follows ITU-R P.618-13 section 2.5,
 A = A_G + sqrt((A_R + A_C)^2 + A_S^2), with the gaseous and cloud terms (and
@@ -34,6 +43,7 @@ P.1510-1, P.453-13: their inputs, as implemented by itur 0.4.0.
 """
 from __future__ import annotations
 
+import functools
 import threading
 import warnings
 from typing import Any
@@ -182,6 +192,128 @@ def _value(q: Any) -> npt.NDArray[np.float64]:
     return np.asarray(getattr(q, "value", q), dtype=float)
 
 
+#: Names of the terms every attenuation function returns.
+_TERMS = ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")
+
+
+def _versions_key(models: Any) -> tuple[int, ...]:
+    """Versions of the Recommendations behind the memoized terms (the memo key follows a version change)."""
+    return tuple(int(m.get_version()) for m in (models.itu676, models.itu840, models.itu836, models.itu835,
+                                                models.itu1510))
+
+
+@functools.lru_cache(maxsize=512)
+def _surface(lat: float, lon: float, hs_km: float, versions: tuple[int, ...]) -> tuple[float, float]:
+    """Annual mean surface temperature [K] (P.1510) and standard pressure [hPa] (P.835) of a site."""
+    models = _load().models
+    t_k = float(_value(models.itu1510.surface_mean_temperature(lat, lon)))
+    p_hpa = float(_value(models.itu835.standard_pressure(hs_km)))
+    return t_k, p_hpa
+
+
+@functools.lru_cache(maxsize=1024)
+def _water_vapour(lat: float, lon: float, hs_km: float, p_cg: float,
+                  versions: tuple[int, ...]) -> tuple[float, float]:
+    """Total water vapour content [kg/m2] and surface water vapour density [g/m3] (P.836) at p_cg [%]."""
+    models = _load().models
+    v_t = float(_value(models.itu836.total_water_vapour_content(lat, lon, p_cg, hs_km)))
+    rho = float(_value(models.itu836.surface_water_vapour_density(lat, lon, p_cg, hs_km)))
+    return v_t, rho
+
+
+@functools.lru_cache(maxsize=4096)
+def _reference_gas_cloud(lat: float, lon: float, hs_km: float, f_ghz: float, p_cg: float,
+                         versions: tuple[int, ...]) -> tuple[float, float]:
+    """Gaseous (P.676-12 Annex 2, approximate) and cloud (P.840) attenuation [dB] at the reference elevation.
+
+    ``p_cg`` is max(p, 1) [%] (P.618-13 section 2.5); the water-vapour inputs (P.836) are taken there too.
+    """
+    import astropy.units as u  # noqa: PLC0415  (installed with itur)
+
+    models = _load().models
+    t_k, p_hpa = _surface(lat, lon, hs_km, versions)
+    v_t, rho = _water_vapour(lat, lon, hs_km, p_cg, versions)
+    el_ref = _REFERENCE_ELEVATION_DEG
+    gas_ref = float(_value(models.itu676.gaseous_attenuation_slant_path(
+        f_ghz, el_ref, rho, p_hpa, t_k * u.K, v_t, hs_km, "approx")))
+    cloud_ref = float(_value(models.itu840.cloud_attenuation(lat, lon, el_ref, f_ghz, p_cg)))
+    return gas_ref, cloud_ref
+
+
+def _scintillation(models: Any, lat: float, lon: float, f_ghz: npt.NDArray[np.float64],
+                   el: npt.NDArray[np.float64], p: npt.NDArray[np.float64], dia: npt.NDArray[np.float64],
+                   eff: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
+    """P.618-13 section 2.4.1 scintillation [dB] of one site at 1-D points (f [GHz], el, p, dia, eff).
+
+    itur's public function loops frequency, percentage and aperture as scalars (an array aperture
+    gives an outer product with the elevations) and reads the P.453 map on each pass; its P.618
+    model itself is element by element in every input, so it is called once for every point, the
+    inputs prepared as the public function prepares them and negative values set to 0 as it does.
+    Without that model object, (frequency, percentage, aperture) are looped through the public
+    function.
+    """
+    wrapper = vars(models.itu618).get("__model")
+    model = getattr(getattr(wrapper, "instance", None), "scintillation_attenuation", None)
+    if model is not None:
+        lat_a = np.atleast_1d(np.asarray(lat, dtype=float))
+        lon_a = np.mod(np.atleast_1d(np.asarray(lon, dtype=float)), 360)
+        val = np.array(model(lat_a, lon_a, f_ghz, el, p, dia, eff, None, None, None, 1000), dtype=float)
+        val[val < 0] = 0
+        return np.broadcast_to(val, el.shape).astype(float)
+    return _scintillation_public(models, lat, lon, f_ghz, el, p, dia, eff)  # pragma: no cover
+
+
+def _scintillation_public(models: Any, lat: float, lon: float, f_ghz: npt.NDArray[np.float64],
+                          el: npt.NDArray[np.float64], p: npt.NDArray[np.float64], dia: npt.NDArray[np.float64],
+                          eff: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
+    """:func:`_scintillation` through itur's public function, one call per (f, p, aperture) with its elevations."""
+    out = np.empty(el.shape)
+    keys, inverse = np.unique(np.stack([f_ghz, p, dia, eff], axis=1), axis=0, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    for j, (f_j, p_j, d_j, e_j) in enumerate(keys):
+        sel = inverse == j
+        out[sel] = _value(models.itu618.scintillation_attenuation(
+            lat, lon, float(f_j), el[sel], float(p_j), float(d_j), float(e_j))).reshape(-1)
+    return out
+
+
+def _attenuation_flat(*, lat: float, lon: float, altitude_m: float, f: npt.NDArray[np.float64],
+                      el: npt.NDArray[np.float64], p: npt.NDArray[np.float64], dia: npt.NDArray[np.float64],
+                      eff: npt.NDArray[np.float64], tilt: float) -> dict[str, npt.NDArray[np.float64]]:
+    """Every term at validated 1-D points of one site: a few itur calls per (frequency, percentage)."""
+    models = _load().models
+    hs_km = float(altitude_m) / 1000.0
+    out = {k: np.empty(f.shape) for k in _TERMS}
+    keys, inverse = np.unique(np.stack([f, p], axis=1), axis=0, return_inverse=True)
+    inverse = inverse.reshape(-1)
+    scale_ref = np.sin(np.radians(_REFERENCE_ELEVATION_DEG))
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore")
+        versions = _versions_key(models)
+        for i, (f_i, p_i) in enumerate(keys):
+            sel = inverse == i
+            f_ghz = float(f_i) / 1e9
+            p_i = float(p_i)
+            # P.618-13 section 2.5: gas and cloud at 1 % for p < 1 %
+            gas_ref, cloud_ref = _reference_gas_cloud(lat, lon, hs_km, f_ghz, max(1.0, p_i), versions)
+            el_s = el[sel]
+            el_unique, el_inverse = np.unique(el_s, return_inverse=True)
+            rain = _value(models.itu618.rain_attenuation(
+                lat, lon, f_ghz, el_unique, hs_km, p_i, None, tilt, None)
+            ).reshape(el_unique.shape)[el_inverse.reshape(el_s.shape)]
+            scale = scale_ref / np.sin(np.radians(el_s))
+            out["gas_db"][sel] = gas_ref * scale
+            out["cloud_db"][sel] = cloud_ref * scale
+            out["rain_db"][sel] = rain
+        out["scintillation_db"][:] = _scintillation(models, lat, lon, f / 1e9, el, p, dia, eff)
+    out["total_db"][:] = total_attenuation_db(out["gas_db"], out["cloud_db"], out["rain_db"], out["scintillation_db"])
+    for name, arr in out.items():
+        if not np.all(np.isfinite(arr)):
+            raise ModelRangeError(name, float(arr[~np.isfinite(arr)][0]), 0.0, np.inf,
+                                  "itur 0.4.0 (non-finite result; report this input)")
+    return out
+
+
 def site_climate(*, latitude_deg: float, longitude_deg: float) -> dict[str, float]:
     """Rain climate and surface temperature of a site.
 
@@ -265,50 +397,12 @@ def site_attenuation(*, latitude_deg: float, longitude_deg: float, altitude_m: f
     check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
                  frequency_hz=frequency_hz, elevation_deg=el, percent_of_year=percent_of_year,
                  antenna_diameter_m=dia, antenna_efficiency=eff)
-    itur = _load()
-    import astropy.units as u  # noqa: PLC0415  (installed with itur)
-
-    lat = float(latitude_deg)
-    lon = float(longitude_deg)
-    hs_km = float(altitude_m) / 1000.0
-    f_ghz = float(frequency_hz) / 1e9
-    p = float(percent_of_year)
-    p_cg = max(1.0, p)  # P.618-13 section 2.5: gas and cloud at 1 % for p < 1 %
-    models = itur.models
-    with warnings.catch_warnings(), np.errstate(all="ignore"):
-        warnings.simplefilter("ignore")
-        t_k = float(_value(models.itu1510.surface_mean_temperature(lat, lon)))
-        p_hpa = float(_value(models.itu835.standard_pressure(hs_km)))
-        v_t = float(_value(models.itu836.total_water_vapour_content(lat, lon, p_cg, hs_km)))
-        rho = float(_value(models.itu836.surface_water_vapour_density(lat, lon, p_cg, hs_km)))
-        el_ref = _REFERENCE_ELEVATION_DEG
-        gas_ref = float(_value(models.itu676.gaseous_attenuation_slant_path(
-            f_ghz, el_ref, rho, p_hpa, t_k * u.K, v_t, hs_km, "approx")))
-        cloud_ref = float(_value(models.itu840.cloud_attenuation(lat, lon, el_ref, f_ghz, p_cg)))
-        el_unique, el_inverse = np.unique(el, return_inverse=True)
-        rain = _value(models.itu618.rain_attenuation(
-            lat, lon, f_ghz, el_unique, hs_km, p, None, float(polarization_tilt_deg), None)
-        ).reshape(el_unique.shape)[el_inverse.reshape(el.shape)]
-        # itur 0.4.0 takes an outer product when D or eta is an array (a further trap), so the
-        # aperture is looped as a scalar, with all elevations of that aperture in one call.
-        scint = np.empty(el.shape)
-        apertures, ap_inverse = np.unique(np.stack([dia.reshape(-1), eff.reshape(-1)], axis=1), axis=0,
-                                          return_inverse=True)
-        ap_inverse = ap_inverse.reshape(el.shape)
-        for j, (d_j, e_j) in enumerate(apertures):
-            sel = ap_inverse == j
-            scint[sel] = _value(models.itu618.scintillation_attenuation(
-                lat, lon, f_ghz, el[sel], p, float(d_j), float(e_j))).reshape(-1)
-    scale = np.sin(np.radians(el_ref)) / np.sin(np.radians(el))
-    gas = gas_ref * scale
-    cloud = cloud_ref * scale
-    total = total_attenuation_db(gas, cloud, rain, scint)
-    terms = {"gas_db": gas, "cloud_db": cloud, "rain_db": rain, "scintillation_db": scint, "total_db": total}
-    for name, arr in terms.items():
-        if not np.all(np.isfinite(arr)):
-            raise ModelRangeError(name, float(arr[~np.isfinite(arr)][0]), 0.0, np.inf,
-                                  "itur 0.4.0 (non-finite result; report this input)")
-    return terms
+    f = np.full(el.size, float(frequency_hz))
+    p = np.full(el.size, float(percent_of_year))
+    terms = _attenuation_flat(lat=float(latitude_deg), lon=float(longitude_deg), altitude_m=altitude_m, f=f,
+                              el=el.reshape(-1), p=p, dia=dia.reshape(-1), eff=eff.reshape(-1),
+                              tilt=float(polarization_tilt_deg))
+    return {k: v.reshape(el.shape) for k, v in terms.items()}
 
 
 def total_attenuation_db(gas_db: Floats, cloud_db: Floats, rain_db: Floats,
@@ -337,8 +431,10 @@ def slant_path_attenuation(*, latitude_deg: float, longitude_deg: float, altitud
 
     ``frequency_hz``, ``elevation_deg``, ``percent_of_year``,
     ``antenna_diameter_m`` and ``antenna_efficiency`` broadcast together.
-    itur is called once per distinct (frequency, percentage) with every
-    elevation and aperture at once, never once per point.
+    This is the batched entry point: itur is called a few times per distinct
+    (frequency, percentage), each call with every elevation (and, for
+    scintillation, every aperture) at once, never once per point; the same
+    numbers as :func:`site_attenuation` point by point.
 
     Parameters
     ----------
@@ -382,16 +478,6 @@ def slant_path_attenuation(*, latitude_deg: float, longitude_deg: float, altitud
     check_inputs(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
                  frequency_hz=f, elevation_deg=el, percent_of_year=p, antenna_diameter_m=d,
                  antenna_efficiency=eta)
-    keys = np.stack([f, p], axis=1)
-    unique, inverse = np.unique(keys, axis=0, return_inverse=True)
-    inverse = inverse.reshape(-1)
-    out = {k: np.empty(f.shape) for k in ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")}
-    for i, (fi, pi) in enumerate(unique):
-        sel = inverse == i
-        terms = site_attenuation(latitude_deg=latitude_deg, longitude_deg=longitude_deg, altitude_m=altitude_m,
-                                 frequency_hz=fi, percent_of_year=pi, elevation_deg=el[sel],
-                                 antenna_diameter_m=d[sel], antenna_efficiency=eta[sel],
-                                 polarization_tilt_deg=polarization_tilt_deg)
-        for k, v in terms.items():
-            out[k][sel] = v
+    out = _attenuation_flat(lat=float(latitude_deg), lon=float(longitude_deg), altitude_m=altitude_m, f=f, el=el,
+                            p=p, dia=d, eff=eta, tilt=float(polarization_tilt_deg))
     return {k: v.reshape(shape) for k, v in out.items()}
