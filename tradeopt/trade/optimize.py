@@ -430,16 +430,18 @@ def _volume_analysis(scenario, res: TradeWork, best: dict) -> dict:
     required_idx = [i for i, st_ in enumerate(plan.sites) if st_.required]
     for j, site in enumerate(plan.sites):
         on = vis_state[:, j]
-        r_state, m_state = rates_at(site, el_state[on, j])
-        acm[on, j] = r_state.max(axis=1) if r_state.size else 0.0
-        fixed_ok[on, j] = m_state >= req_margin - 1e-9
         # the rate the design (its own modulation) closes at the site's mask, within the bandwidth
         el_mask = (plan.geometry[site.id][0] if plan.kind == "geostationary" else site.min_elevation_deg)
-        r_mask, _ = rates_at(site, [el_mask])
-        closing_rate[site.id] = float(r_mask[0, c_design])
+        # One call per site: the visible states, the mask, and (required sites) each threshold.
+        el_th = np.maximum(thresholds, el_mask) if site.required else np.zeros(0)
+        n_on = int(on.sum())
+        r_all, m_all = rates_at(site, np.concatenate([el_state[on, j], [el_mask], el_th]))
+        r_state, m_state = r_all[:n_on], m_all[:n_on]
+        acm[on, j] = r_state.max(axis=1) if r_state.size else 0.0
+        fixed_ok[on, j] = m_state >= req_margin - 1e-9
+        closing_rate[site.id] = float(r_all[n_on, c_design])
         if site.required:
-            r_th, _ = rates_at(site, np.maximum(thresholds, el_mask))
-            r_theta_c = np.minimum(r_theta_c, r_th)
+            r_theta_c = np.minimum(r_theta_c, r_all[n_on + 1:])
     req = np.zeros(n_sites, dtype=bool)
     req[required_idx] = True
     acm_req = np.where(vis_state & req[None, :], acm, 0.0)

@@ -159,14 +159,19 @@ def site_terms_for_apertures(scenario, sites, frequency_hz: float, *, diameter_m
     fsl = np.asarray(path.free_space_loss_db(rng, frequency_hz), dtype=float).reshape(-1)
     shape = (d.size, len(sites))
     comp = {k: np.empty(shape) for k in ("gas_db", "cloud_db", "rain_db", "scintillation_db", "total_db")}
+    # One batched propagation call per distinct ground site, with every (elevation, aperture) of it:
+    # a site listed at several elevations (the evidence curves) costs one call, not one per elevation.
+    by_site: dict = {}
     for j, s in enumerate(sites):
-        t = propagation.site_attenuation(
-            latitude_deg=s.latitude_deg, longitude_deg=s.longitude_deg, altitude_m=s.altitude_m,
-            frequency_hz=frequency_hz, percent_of_year=scenario.percent_of_year,
-            elevation_deg=np.full(d.shape, el[j]), antenna_diameter_m=d, antenna_efficiency=eta,
+        by_site.setdefault((float(s.latitude_deg), float(s.longitude_deg), float(s.altitude_m)), []).append(j)
+    for (lat, lon, alt), cols in by_site.items():
+        t = propagation.slant_path_attenuation(
+            latitude_deg=lat, longitude_deg=lon, altitude_m=alt, frequency_hz=frequency_hz,
+            elevation_deg=np.broadcast_to(el[cols][None, :], (d.size, len(cols))),
+            percent_of_year=scenario.percent_of_year, antenna_diameter_m=d[:, None], antenna_efficiency=eta[:, None],
             polarization_tilt_deg=scenario.polarization_tilt_deg)
         for k in comp:
-            comp[k][:, j] = t[k]
+            comp[k][:, cols] = t[k]
     rise = sky_noise_increase_at_receiver_k(comp["gas_db"], comp["cloud_db"], comp["rain_db"], feed[:, None])
     return SiteTerms(site_ids=[s.id for s in sites], elevation_deg=el, range_m=rng, free_space_loss_db=fsl,
                      gas_db=comp["gas_db"], cloud_db=comp["cloud_db"], rain_db=comp["rain_db"],
