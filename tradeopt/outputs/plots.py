@@ -38,19 +38,21 @@ def _style(res, band_id: str) -> dict:
     return BAND_STYLE.get(letter, _OTHER_STYLE)
 
 
-def _plt():
-    import matplotlib  # noqa: PLC0415
+def _figure(*args, **kwargs):
+    """A figure and its axes on its own Agg canvas (``Figure.subplots`` arguments; figure keywords
+    ``figsize`` and ``layout``), without pyplot: nothing is registered globally and pyplot's import
+    and figure manager are not paid for."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415
+    from matplotlib.figure import Figure  # noqa: PLC0415
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt  # noqa: PLC0415
-
-    return plt
+    fig = Figure(figsize=kwargs.pop("figsize"), layout=kwargs.pop("layout", None))
+    FigureCanvasAgg(fig)
+    return fig, fig.subplots(*args, **kwargs)
 
 
 def _png(fig, software: str) -> bytes:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, metadata={"Software": software})
-    _plt().close(fig)
     return buf.getvalue()
 
 
@@ -93,8 +95,7 @@ def pareto_figure(res):
     from matplotlib.cm import ScalarMappable  # noqa: PLC0415
     from matplotlib.lines import Line2D  # noqa: PLC0415
 
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(7.6, 5.6), layout="constrained")
+    fig, ax = _figure(figsize=(7.6, 5.6), layout="constrained")
     handles = []
     cloud = _feasible_points(res)
     if cloud is not None and len(cloud):
@@ -173,8 +174,7 @@ def dish_curve_figure(res):
     import numpy as np  # noqa: PLC0415
     from matplotlib.lines import Line2D  # noqa: PLC0415
 
-    plt = _plt()
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(10.0, 4.4), layout="constrained")
+    fig, (ax1, ax2) = _figure(1, 2, figsize=(10.0, 4.4), layout="constrained")
     empty = []
     knee_shown = False
     import pandas as pd  # noqa: PLC0415
@@ -227,8 +227,7 @@ def margin_figure(res):
     """
     import numpy as np  # noqa: PLC0415
 
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(7.2, 4.8), layout="constrained")
+    fig, ax = _figure(figsize=(7.2, 4.8), layout="constrained")
     rows = [r for r in res.margin_vs_elevation.to_dict("records") if np.isfinite(r["margin_db"])]
     sites = sorted({r["site_id"] for r in rows})
     for band_id in sorted({r["band_id"] for r in rows}):
@@ -264,8 +263,7 @@ def attenuation_figure(res):
     import numpy as np  # noqa: PLC0415
     from matplotlib.ticker import FixedFormatter, FixedLocator, NullFormatter  # noqa: PLC0415
 
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(7.2, 4.8), layout="constrained")
+    fig, ax = _figure(figsize=(7.2, 4.8), layout="constrained")
     rows = [r for r in res.attenuation.to_dict("records") if np.isfinite(r["total_db"])]
     sites = sorted({r["site_id"] for r in rows})
     for band_id in sorted({r["band_id"] for r in rows}):
@@ -309,9 +307,10 @@ def trade_plots(res, *, software: str) -> dict[str, bytes]:
     files : dict
         PNG file name -> bytes.
     """
-    plt = _plt()
+    from matplotlib import rc_context  # noqa: PLC0415
+
     out = {}
-    with plt.rc_context(_RC):
+    with rc_context(_RC):
         for name, build in (("pareto.png", pareto_figure), ("dish_curve.png", dish_curve_figure),
                             ("margin_vs_elevation.png", margin_figure),
                             ("attenuation_vs_availability.png", attenuation_figure)):
