@@ -46,6 +46,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="minimise spacecraft comm mass or DC power (default: the scenario's)")
     p.add_argument("--out", metavar="DIR", help="results folder (default results/<scenario name>)")
     p.add_argument("--json", action="store_true", help="print a JSON summary")
+    p.add_argument("--quiet", action="store_true", help="no progress display on stderr (shown only on a terminal)")
 
     p = sub.add_parser("demand", help="data demand: from the instruments to bits per day")
     p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
@@ -55,6 +56,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
     p.add_argument("--days", type=float, default=None, help="span to propagate [days] (default: the scenario's)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress display on stderr (shown only on a terminal)")
 
     p = sub.add_parser("new", help="write the commented default scenario to a file as a starting point")
     p.add_argument("path", metavar="SCENARIO.toml", help="file to create (never overwritten)")
@@ -110,7 +112,7 @@ def _cmd_optimize(args) -> int:
     from .commands import run_optimize
 
     return run_optimize(scenario_path=args.scenario, objective=args.objective, out_dir=args.out,
-                        as_json=args.json)
+                        as_json=args.json, quiet=args.quiet)
 
 
 def _cmd_demand(args) -> int:
@@ -122,7 +124,7 @@ def _cmd_demand(args) -> int:
 def _cmd_contacts(args) -> int:
     from .commands import run_contacts
 
-    return run_contacts(scenario_path=args.scenario, days=args.days, as_json=args.json)
+    return run_contacts(scenario_path=args.scenario, days=args.days, as_json=args.json, quiet=args.quiet)
 
 
 def _cmd_new(args) -> int:

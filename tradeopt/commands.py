@@ -1,13 +1,67 @@
 """The work behind each command line verb (the CLI parses; these run and print)."""
 from __future__ import annotations
 
+import contextlib
 import json
 import re
+import sys
 from pathlib import Path
 
 from .outputs.records import contacts_record, demand_record  # noqa: F401  (light; re-exported here)
 
-__all__ = ["run_optimize", "run_contacts", "run_demand", "run_new", "contacts_record", "demand_record"]
+__all__ = ["run_optimize", "run_contacts", "run_demand", "run_new", "contacts_record", "demand_record",
+           "progress_enabled", "stages"]
+
+
+def progress_enabled(quiet: bool = False) -> bool:
+    """Whether to show progress: on stderr, only when it is a terminal, never with ``--quiet``."""
+    if quiet:
+        return False
+    isatty = getattr(sys.stderr, "isatty", None)
+    try:
+        return bool(isatty and isatty())
+    except (ValueError, OSError):  # a closed or odd stream
+        return False
+
+
+class _Stages:
+    """Named steps of a long command, shown by rich on stderr (or nothing, without a display)."""
+
+    def __init__(self, progress=None, task=None):
+        self._progress = progress
+        self._task = task
+        self._started = False
+
+    def step(self, description: str) -> None:
+        """Finish the previous step (if any) and show the next one."""
+        if self._progress is None:
+            return
+        self._progress.update(self._task, description=description, advance=1 if self._started else 0,
+                              refresh=True)
+        self._started = True
+
+
+@contextlib.contextmanager
+def stages(total: int, *, enabled: bool):
+    """Progress over ``total`` named steps on stderr (rich), or a silent stand-in when not ``enabled``.
+
+    The display is transient (erased when the command ends), never written to stdout, and rich is
+    imported only when it is shown, so the command line starts fast.
+    """
+    if not enabled:
+        yield _Stages()
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
+    console = Console(file=sys.stderr, force_terminal=True)
+    with Progress(SpinnerColumn(), TextColumn("tradeopt: {task.description}"), BarColumn(), MofNCompleteColumn(),
+                  TimeElapsedColumn(), console=console, transient=True, redirect_stdout=False,
+                  redirect_stderr=False) as progress:
+        task = progress.add_task("starting", total=total)
+        shown = _Stages(progress, task)
+        yield shown
+        progress.update(task, completed=total, refresh=True)
 
 
 def _default_out(name: str) -> Path:
@@ -22,28 +76,34 @@ def _scenario_inputs(scenario_path, scenario) -> list:
             *(p.compression_sample_file for p in scenario.payloads)]
 
 
-def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=False) -> int:
+def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=False, quiet=False) -> int:
     """``tradeopt optimize``: search, write the results folder atomically, print the summary.
 
     The results folder (``out_dir`` or ``results/<scenario name>``) must be new, empty or
     written by tradeopt before, and must not hold an input: it is checked before the
     trade is computed and again when written (:func:`tradeopt.outputs.writer.check_out_dir`).
+    Progress is shown on stderr when it is a terminal, unless ``quiet``.
     """
-    from .inputs.scenario import load_scenario
-    from .outputs.report import build_files, summary_dict, summary_text
-    from .outputs.writer import check_out_dir, write_results
-    from .outputs.provenance import clean_for_json
-    from .trade.optimize import optimize
+    with stages(4, enabled=progress_enabled(quiet)) as progress:
+        progress.step("loading the models")
+        from .inputs.scenario import load_scenario
+        from .outputs.report import build_files, summary_dict, summary_text
+        from .outputs.writer import check_out_dir, write_results
+        from .outputs.provenance import clean_for_json
+        from .trade.optimize import optimize
 
-    if out_dir is not None:  # refused before anything is read or computed
-        check_out_dir(out_dir, inputs=[scenario_path])
-    scenario = load_scenario(scenario_path)
-    target = Path(out_dir) if out_dir is not None else _default_out(scenario.name)
-    inputs = _scenario_inputs(scenario_path, scenario)
-    check_out_dir(target, inputs=inputs)  # the default folder too; and now the catalogs and samples are known
-    res = optimize(scenario, objective=objective)
-    files = build_files(res, str(target))
-    write_results(target, files, inputs=inputs)
+        if out_dir is not None:  # refused before anything is read or computed
+            check_out_dir(out_dir, inputs=[scenario_path])
+        progress.step("reading the scenario")
+        scenario = load_scenario(scenario_path)
+        target = Path(out_dir) if out_dir is not None else _default_out(scenario.name)
+        inputs = _scenario_inputs(scenario_path, scenario)
+        check_out_dir(target, inputs=inputs)  # the default folder too; and now the catalogs and samples are known
+        progress.step("trade: contacts, propagation, search, sizing and evidence")
+        res = optimize(scenario, objective=objective)
+        progress.step("writing the results: tables and plots")
+        files = build_files(res, str(target))
+        write_results(target, files, inputs=inputs)
     if as_json:
         print(json.dumps(clean_for_json(summary_dict(res, str(target))), indent=2, sort_keys=True))
     else:
@@ -51,15 +111,23 @@ def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=Fa
     return 0
 
 
-def run_contacts(*, scenario_path=None, days=None, as_json=False) -> int:
-    """``tradeopt contacts``: passes, gaps and elevation histograms per site."""
-    from .inputs.scenario import load_scenario
-    from .outputs.provenance import clean_for_json, versions
-    from .plan.contacts import contact_plan
+def run_contacts(*, scenario_path=None, days=None, as_json=False, quiet=False) -> int:
+    """``tradeopt contacts``: passes, gaps and elevation histograms per site.
 
-    scenario = load_scenario(scenario_path)
-    plan = contact_plan(scenario, days=days)
-    rec = contacts_record(scenario, plan)
+    Progress is shown on stderr when it is a terminal, unless ``quiet``.
+    """
+    with stages(3, enabled=progress_enabled(quiet)) as progress:
+        progress.step("loading the models")
+        from .inputs.scenario import load_scenario
+        from .outputs.provenance import clean_for_json, versions
+        from .plan.contacts import contact_plan
+
+        progress.step("reading the scenario")
+        scenario = load_scenario(scenario_path)
+        span = f"{days:g} days" if days is not None else "the scenario's days"
+        progress.step(f"propagating the orbit over {span} for {len(scenario.sites)} sites")
+        plan = contact_plan(scenario, days=days)
+        rec = contacts_record(scenario, plan)
     if as_json:
         rec["versions"] = versions(with_recommendations=False)
         print(json.dumps(clean_for_json(rec), indent=2, sort_keys=True))
