@@ -1,8 +1,9 @@
 """Benchmarks of the link-budget engine and the design-space search.
 
 Measures, on this machine:
-1. the propagation grid (100 elevations x 5 availabilities x 3 frequencies, one site)
-   against calling itur point by point: speed ratio and the largest difference [dB];
+1. the propagation grid (100 elevations x 5 availabilities x 3 frequencies, one site; best of 3,
+   each with the propagation memo emptied first) against calling itur point by point: speed ratio
+   and the largest difference [dB];
 2. designs evaluated per second by the vectorized search on a synthetic catalog of
    at least 1,000,000 designs; the same for a per-design loop that calls the budget
    one design at a time (on a subsample, extrapolated); their ratio; and the ratio of
@@ -38,11 +39,15 @@ def bench_propagation(n_points_reference: int = 150) -> dict:
     f = np.array([2.245e9, 8.2125e9, 26.25e9])
     F, P, E = np.meshgrid(f, p, el, indexing="ij")
     prop.site_attenuation(**site, frequency_hz=8e9, percent_of_year=1.0, elevation_deg=10.0,
-                          antenna_diameter_m=5.0, antenna_efficiency=0.6)  # warm both paths
-    t0 = time.perf_counter()
-    grid = prop.slant_path_attenuation(**site, frequency_hz=F, elevation_deg=E, percent_of_year=P,
-                                       antenna_diameter_m=5.4, antenna_efficiency=0.6)
-    t_grid = time.perf_counter() - t0
+                          antenna_diameter_m=5.0, antenna_efficiency=0.6)  # warm both paths (itur's maps)
+    t_grid = float("inf")
+    for _ in range(3):  # best of 3, each from an empty memo: the grid pays for all its own itur calls
+        for memo in (prop._surface, prop._water_vapour, prop._reference_gas_cloud):
+            memo.cache_clear()
+        t0 = time.perf_counter()
+        grid = prop.slant_path_attenuation(**site, frequency_hz=F, elevation_deg=E, percent_of_year=P,
+                                           antenna_diameter_m=5.4, antenna_efficiency=0.6)
+        t_grid = min(t_grid, time.perf_counter() - t0)
     rng = np.random.default_rng(1)
     picks = rng.choice(F.size, size=n_points_reference, replace=False)
     max_diff = 0.0

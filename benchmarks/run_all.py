@@ -22,11 +22,13 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO / "benchmarks"))
 
 GOALS = {
+    "propagation_ratio": (">=", 300.0),
     "propagation_max_diff_db": ("<", 1e-6),
     "search_ratio_vs_loop": (">=", 1000.0),
     "search_ratio_vs_numpy_limit": (">=", 0.3),
     "peak_mib_1e7_designs": ("<", 1024.0),
     "help_s": ("<", 0.5),
+    "demo_cold_s": ("<", 10.0),
 }
 
 
