@@ -1,0 +1,78 @@
+"""trade_plots draws half of its figures in a forked second process when two processors are free.
+
+The PNG files must not depend on it: the same bytes, in the same order, with one process or two,
+and a second process that fails is replaced by drawing its figures in the first.
+"""
+import sys
+
+import pytest
+
+from tradeopt.inputs.scenario import scenario_from_dict
+from tradeopt.outputs import plots
+from tradeopt.trade.optimize import optimize
+
+pytestmark = pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the second process is forked (Linux)")
+
+# An invented scenario: fixed range (no orbit to propagate), two bands, one site.
+SCENARIO = {
+    "scenario": {"name": "plot-processes", "availability_percent": 99.5, "required_margin_db": 3.0,
+                 "bands": ["X-DOWN", "KA-DOWN"]},
+    "orbit": {"range_m": 2.0e6},
+    "requirement": {"rate_bps": 50e6},
+    "options": {"modcods": ["DVBS2-QPSK-12", "DVBS2-8PSK-23"], "dish_curve_step_m": 1.0},
+    "sites": [{"id": "vellum-cove", "latitude_deg": 41.0, "longitude_deg": 2.0, "altitude_m": 100.0,
+               "min_elevation_deg": 10.0}],
+}
+
+
+@pytest.fixture(scope="module")
+def res():
+    return optimize(scenario_from_dict(SCENARIO, file="plot-processes.toml"))
+
+
+def test_two_processes_give_the_same_png_bytes_in_the_same_order(res):
+    # Catches: a figure drawn with other settings in the second process (rc parameters, Software text),
+    # a figure lost or drawn twice, and files written in another order.
+    one = plots.trade_plots(res, software="tradeopt test", processes=1)
+    two = plots.trade_plots(res, software="tradeopt test", processes=2)
+    assert list(two) == list(one) == ["pareto.png", "dish_curve.png", "margin_vs_elevation.png",
+                                      "attenuation_vs_availability.png"]
+    assert two == one
+
+
+@pytest.mark.slow
+def test_a_failed_second_process_is_replaced_by_drawing_here(res, monkeypatch):
+    # Catches: missing figures (or a hang) when the second process dies before sending its figures.
+    one = plots.trade_plots(res, software="tradeopt test", processes=1)
+    real_render = plots._render
+    parent = __import__("os").getpid()
+
+    def render_failing_in_the_child(res_, names, software):
+        if __import__("os").getpid() != parent:
+            raise RuntimeError("second process fails")
+        return real_render(res_, names, software)
+
+    monkeypatch.setattr(plots, "_render", render_failing_in_the_child)
+    assert plots.trade_plots(res, software="tradeopt test", processes=2) == one
+
+
+@pytest.mark.slow
+def test_a_hung_second_process_is_stopped_and_replaced(res, monkeypatch):
+    # Catches: the command waiting forever on a second process that never answers.
+    import os
+    import time
+
+    one = plots.trade_plots(res, software="tradeopt test", processes=1)
+    real_render = plots._render
+    parent = os.getpid()
+
+    def render_hanging_in_the_child(res_, names, software):
+        if os.getpid() != parent:
+            time.sleep(600)
+        return real_render(res_, names, software)
+
+    monkeypatch.setattr(plots, "_render", render_hanging_in_the_child)
+    monkeypatch.setattr(plots, "_SECOND_PROCESS_TIMEOUT_S", 1.0)
+    t0 = time.monotonic()
+    assert plots.trade_plots(res, software="tradeopt test", processes=2) == one
+    assert time.monotonic() - t0 < 60.0
