@@ -18,7 +18,7 @@ from ..trade.result import KNEE_FRACTION, Design, TradeResult, TradeStatus
 from .provenance import CSV_FLOAT_FORMAT, clean_for_json, versions
 from .tables import budget_record
 
-__all__ = ["build_files", "summary_dict", "summary_text", "CAUTIONS"]
+__all__ = ["build_files", "summary_dict", "summary_text", "scenario_record", "CAUTIONS"]
 
 CAUTIONS = [
     "Design-stage estimates only: confirm with detailed analysis and measurement before commitment.",
@@ -74,6 +74,43 @@ def design_record(d: Design) -> dict:
 def _closest_records(res: TradeResult, n: int = 5) -> list[dict]:
     c = res.closest.sort_values("overall_rank").head(n)
     return c.drop(columns=["n_broken", "overall_rank"]).to_dict("records")
+
+
+def _finite_or_none(x: float) -> float | None:
+    return float(x) if np.isfinite(x) else None
+
+
+def scenario_record(scenario) -> dict:
+    """The scenario's question as best.json gives it (``inputs``): what report.html states in its first section.
+
+    Limits that are not set are ``null``; paths (the catalog folder, sample files) are left out.
+    """
+    orbit = scenario.orbit
+    orbit_rec = {"kind": orbit.kind, **dataclasses.asdict(orbit),
+                 "perigee_altitude_m": orbit.perigee_altitude_m, "apogee_altitude_m": orbit.apogee_altitude_m}
+    return {"name": scenario.name, "description": scenario.description, "objective": scenario.objective,
+            "direction": scenario.direction, "availability_percent": scenario.availability_percent,
+            "required_margin_db": scenario.required_margin_db, "bands": list(scenario.band_ids),
+            "max_comm_mass_kg": _finite_or_none(scenario.max_comm_mass_kg),
+            "max_dc_power_w": _finite_or_none(scenario.max_dc_power_w),
+            "power_mass_kg_per_w": scenario.power_mass_kg_per_w,
+            "implementation_loss_db": scenario.implementation_loss_db,
+            "polarization_loss_db": scenario.polarization_loss_db, "other_losses_db": scenario.other_losses_db,
+            "bandwidth_limits_hz": dict(scenario.bandwidth_limits_hz),
+            "requirement": dataclasses.asdict(scenario.requirement), "orbit": orbit_rec,
+            "payloads": [p.name for p in scenario.payloads],
+            "sites": [dataclasses.asdict(s) for s in scenario.sites]}
+
+
+def _closest_by_band(res: TradeResult, n: int = 3) -> dict:
+    """The closest misses of each band with no feasible design (what each misses)."""
+    out = {}
+    for band_id, d in res.best_by_band.items():
+        if d is not None or not len(res.closest):
+            continue
+        near = res.closest[res.closest["band_id"] == band_id].head(n)
+        out[band_id] = near.drop(columns=["n_broken", "overall_rank"]).to_dict("records")
+    return out
 
 
 def summary_dict(res: TradeResult, results_dir: str) -> dict:
@@ -228,8 +265,13 @@ def _toml(d: dict) -> str:
     return "\n".join(out) + "\n"
 
 
-def build_files(res: TradeResult, results_dir: str, *, plots: bool = True) -> dict[str, str | bytes]:
-    """Every file of the results folder, in memory (name -> content), from the trade's result alone."""
+def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
+                report: bool | None = None) -> dict[str, str | bytes]:
+    """Every file of the results folder, in memory (name -> content), from the trade's result alone.
+
+    ``report`` (default: as ``plots``) adds report.html, rendered from the other files alone
+    (:mod:`tradeopt.outputs.report_html`), so that ``tradeopt report`` re-renders the same bytes.
+    """
     ver = versions()
     vline = _version_line(ver)
     files: dict[str, str | bytes] = {}
@@ -260,7 +302,9 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True) -> di
                  "feasible": summary["feasible"], "status": summary["status"], "message": summary["message"],
                  "best": summary["best"], "mission": summary["mission"],
                  "designs_evaluated": summary["designs_evaluated"], "designs_feasible": summary["designs_feasible"],
-                 "closest": summary["closest"], "budget": None, "budgets_by_site": {},
+                 "closest": summary["closest"], "closest_by_band": _closest_by_band(res),
+                 "best_by_band": summary["best_by_band"], "inputs": scenario_record(res.scenario),
+                 "budget": None, "budgets_by_site": {},
                  "notes": sorted(set(res.notes)), "cautions": CAUTIONS, "versions": ver}
     if res.best is not None:
         best_json["budget"] = budget_record(res.budget().to_dict())
@@ -274,4 +318,8 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True) -> di
         from .plots import trade_plots  # noqa: PLC0415
 
         files.update(trade_plots(res, software=vline))
+    if plots if report is None else report:
+        from .report_html import REPORT_NAME, report_html  # noqa: PLC0415
+
+        files[REPORT_NAME] = report_html(files)
     return files
