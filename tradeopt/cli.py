@@ -1,4 +1,4 @@
-"""Command line: ``tradeopt budget | optimize | demand | contacts | new | catalog check``.
+"""Command line: ``tradeopt budget | optimize | report | demand | contacts | new | catalog check``.
 
 Thin: parse, call, print. Heavy imports happen inside the commands so that
 ``tradeopt --help`` stays fast. Bad input prints one line on stderr and exits
@@ -47,6 +47,11 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", metavar="DIR", help="results folder (default results/<scenario name>)")
     p.add_argument("--json", action="store_true", help="print a JSON summary")
     p.add_argument("--quiet", action="store_true", help="no progress display on stderr (shown only on a terminal)")
+
+    p = sub.add_parser("report", help="re-render report.html of a results folder from its own files")
+    p.add_argument("results_dir", metavar="RESULTS_DIR", help="a results folder written by 'tradeopt optimize'")
+    p.add_argument("--pdf", action="store_true",
+                   help="also print it to report.pdf with headless Chromium (/usr/bin/chromium or chromium on PATH)")
 
     p = sub.add_parser("demand", help="data demand: from the instruments to bits per day")
     p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
@@ -115,6 +120,12 @@ def _cmd_optimize(args) -> int:
                         as_json=args.json, quiet=args.quiet)
 
 
+def _cmd_report(args) -> int:
+    from .commands import run_report
+
+    return run_report(results_dir=args.results_dir, pdf=args.pdf)
+
+
 def _cmd_demand(args) -> int:
     from .commands import run_demand
 
@@ -133,7 +144,7 @@ def _cmd_new(args) -> int:
     return run_new(path=args.path)
 
 
-_COMMANDS = {"budget": _cmd_budget, "catalog": _cmd_catalog, "optimize": _cmd_optimize,
+_COMMANDS = {"budget": _cmd_budget, "catalog": _cmd_catalog, "optimize": _cmd_optimize, "report": _cmd_report,
              "demand": _cmd_demand, "contacts": _cmd_contacts, "new": _cmd_new}
 
 

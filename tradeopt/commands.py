@@ -9,7 +9,7 @@ from pathlib import Path
 
 from .outputs.records import contacts_record, demand_record  # noqa: F401  (light; re-exported here)
 
-__all__ = ["run_optimize", "run_contacts", "run_demand", "run_new", "contacts_record", "demand_record",
+__all__ = ["run_optimize", "run_report", "run_contacts", "run_demand", "run_new", "contacts_record", "demand_record",
            "progress_enabled", "stages"]
 
 
@@ -108,6 +108,51 @@ def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=Fa
         print(json.dumps(clean_for_json(summary_dict(res, str(target))), indent=2, sort_keys=True))
     else:
         print(summary_text(res, str(target)))
+    return 0
+
+
+def run_report(*, results_dir, pdf=False) -> int:
+    """``tradeopt report``: re-render report.html of a results folder from its own files; ``pdf``: also report.pdf.
+
+    The folder must be one tradeopt wrote (its marker file) and hold best.json. The PDF is printed by
+    headless Chromium (/usr/bin/chromium or chromium on PATH); without one, one line on stderr, status 2,
+    and nothing is written.
+    """
+    from .inputs.errors import InputError
+    from .outputs.report_html import (PDF_NAME, REPORT_NAME, find_chromium, print_pdf, read_results_folder,
+                                      report_html, write_file_atomically)
+    from .outputs.writer import MARKER_NAME
+
+    folder = Path(results_dir)
+    if folder.is_symlink() or not folder.is_dir():
+        raise InputError("is not a results folder (expected a folder written by 'tradeopt optimize')", file=str(folder))
+    if not (folder / MARKER_NAME).is_file():
+        raise InputError(f"was not written by tradeopt (no {MARKER_NAME} file); refusing to write into it",
+                         file=str(folder))
+    if not (folder / "best.json").is_file():
+        raise InputError("has no best.json: the report is built from it and the tables beside it", file=str(folder))
+    chromium = None
+    if pdf:
+        chromium = find_chromium()
+        if chromium is None:
+            print("tradeopt report: --pdf needs Chromium (/usr/bin/chromium or chromium on PATH) and none is "
+                  "installed; nothing was written", file=sys.stderr)
+            return 2
+    try:
+        html = report_html(read_results_folder(folder))
+    except (ValueError, KeyError, TypeError) as exc:  # a damaged or foreign best.json or table
+        raise InputError(f"cannot be read as a results folder ({type(exc).__name__}: {exc})",
+                         file=str(folder)) from None
+    write_file_atomically(folder / REPORT_NAME, html)
+    written = [folder / REPORT_NAME]
+    if chromium is not None:
+        try:
+            print_pdf(folder / REPORT_NAME, folder / PDF_NAME, chromium=chromium)
+        except RuntimeError as exc:
+            print(f"tradeopt report: wrote {written[0]}, but no PDF: {exc}", file=sys.stderr)
+            return 1
+        written.append(folder / PDF_NAME)
+    print("wrote " + " and ".join(str(p) for p in written))
     return 0
 
 
