@@ -326,3 +326,13 @@ def test_the_template_ships_in_the_package_data():
     for path in templates:
         rel = path.relative_to(root / "tradeopt").as_posix()
         assert any(fnmatch.fnmatch(rel, g) for g in globs["tradeopt"]), rel
+
+
+def test_rates_and_bandwidths_are_shown_with_a_prefix_that_fits():
+    # Catches: a deep-space rate shown as "0.002 Mbit/s" or an occupied bandwidth as "0.003432 MHz" (the
+    # page would hide the figure the reviewer needs in leading zeros).
+    assert rh._rate(2000.0) == "2 kbit/s"
+    assert rh._rate(580384868.5) == "580.4 Mbit/s"
+    assert rh._rate(150.0) == "150 bit/s"
+    assert rh._hz(3432.0) == "3.432 kHz"
+    assert rh._hz(1.5e9) == "1.5 GHz"

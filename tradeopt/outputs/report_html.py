@@ -404,6 +404,25 @@ def _g(value, digits: int = 4, scale: float = 1.0) -> str:
     return f"{float(value) / scale:,.{digits}g}"
 
 
+def _scaled(value: float, unit: str) -> tuple[float, str]:
+    """A scale and prefixed unit (k, M, G) that keeps ``value`` between 1 and 1000 where it can."""
+    for scale, prefix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
+        if abs(value) >= scale:
+            return scale, prefix + unit
+    return 1.0, unit
+
+
+def _rate(bps: float) -> str:
+    """A rate with its unit, e.g. ``580.4 Mbit/s`` or ``2 kbit/s``."""
+    scale, unit = _scaled(bps, "bit/s")
+    return f"{bps / scale:,.4g} {unit}"
+
+
+def _hz(hz: float) -> str:
+    scale, unit = _scaled(hz, "Hz")
+    return f"{hz / scale:,.4g} {unit}"
+
+
 def _source(template: str, recs: dict) -> str:
     """``{P.676}`` and the like replaced by the Recommendation's version (the name itself when unknown)."""
     return re.sub(r"\{([^{}]+)\}", lambda m: recs.get(m.group(1), m.group(1)), template)
@@ -456,7 +475,7 @@ def _orbit_text(orbit: dict) -> str:
 def _requirement_text(inputs: dict, mission: dict) -> str:
     req = inputs.get("requirement") or {}
     if req.get("rate_bps") is not None:
-        return f"an information rate of {req['rate_bps'] / 1e6:,.4g} Mbit/s"
+        return f"an information rate of {_rate(req['rate_bps'])}"
     if req.get("volume_from_demand"):
         payloads = ", ".join(inputs.get("payloads", [])) or "the payloads"
         vol = mission.get("daily_volume_bits")
@@ -478,7 +497,7 @@ def _question(best: dict, inputs: dict) -> dict:
     if inputs.get("max_dc_power_w") is not None:
         limits.append(f"DC power at most {inputs['max_dc_power_w']:g} W")
     for band, hz in sorted((inputs.get("bandwidth_limits_hz") or {}).items()):
-        limits.append(f"{band} bandwidth at most {hz / 1e6:g} MHz")
+        limits.append(f"{band} bandwidth at most {_hz(hz)}")
     facts = [
         ("objective", "least spacecraft comm mass" if objective == "mass" else "least spacecraft DC power"),
         ("direction", inputs.get("direction", "downlink")),
@@ -532,9 +551,9 @@ def _demand(tables: dict, contacts: dict | None, best: dict) -> dict:
                        else f"{m['contact_s_per_day'] / 60:,.1f} min/day of contact above the masks of the required "
                             "sites (simultaneous visibility counted once)")
             out["rate"] = (f"{m['daily_volume_bits'] / 1e9:,.4g} Gbit/day over {contact} gives an information rate "
-                           f"of {rate / 1e6:,.4g} Mbit/s: a design that closes at each site's mask delivers the volume.")
+                           f"of {_rate(rate)}: a design that closes at each site's mask delivers the volume.")
         else:
-            out["rate"] = f"The requirement gives the information rate directly: {rate / 1e6:,.4g} Mbit/s."
+            out["rate"] = f"The requirement gives the information rate directly: {_rate(rate)}."
     return out
 
 
@@ -562,7 +581,7 @@ def _runner_up(best: Design, designs, objective: str) -> dict | None:
             "occupied_bandwidth_hz": best.occupied_bandwidth_hz, "neg_margin": -best.margin_db}
     words = {"mass_kg": ("comm mass", "{:.2f} kg", 1.0), "dc_power_w": ("DC power", "{:.1f} W", 1.0),
              "ground_diameter_m": ("ground dish", "{:g} m", 1.0),
-             "occupied_bandwidth_hz": ("occupied bandwidth", "{:.4g} MHz", 1e6),
+             "occupied_bandwidth_hz": ("occupied bandwidth", "hz", 1.0),
              "neg_margin": ("margin", "{:.2f} dB", -1.0)}
     ties, loses = [], None
     for key in steps:
@@ -571,7 +590,8 @@ def _runner_up(best: Design, designs, objective: str) -> dict | None:
             ties.append(words[key][0])
             continue
         name, fmt, scale = words[key]
-        loses = f"it loses on {name}: {fmt.format(a / scale)} against {fmt.format(b / scale)}"
+        shown = (_hz(a), _hz(b)) if fmt == "hz" else (fmt.format(a / scale), fmt.format(b / scale))
+        loses = f"it loses on {name}: {shown[0]} against {shown[1]}"
         break
     why = (f"it ties on {', '.join(ties)}; " if ties else "") + (loses or "it ties on every step")
     return {"text": f"{r['band_id']} {r['ground_antenna_id']} ({r['ground_diameter_m']:g} m) + "
@@ -589,7 +609,7 @@ def _recommendation(best: dict, design: Design | None, tables: dict) -> dict:
     out["design"] = {"band": design.band_id, "ground": design.ground_antenna_id,
                      "dish": f"{design.ground_diameter_m:g}", "craft": design.spacecraft_antenna_id,
                      "amplifier": design.amplifier_id, "modcod": design.modcod_id,
-                     "rate": _g(design.rate_bps, 4, 1e6), "bandwidth": _g(design.occupied_bandwidth_hz, 4, 1e6),
+                     "rate": _rate(design.rate_bps), "bandwidth": _hz(design.occupied_bandwidth_hz),
                      "margin": _f(design.margin_db, 2), "limiting": design.limiting_site_id,
                      "mass": _f(design.mass_kg, 2), "power": _f(design.dc_power_w, 1),
                      "parts": [("spacecraft antenna " + design.spacecraft_antenna_id, _f(mb.antenna_kg, 2)),
@@ -712,6 +732,9 @@ def _budget(best: dict) -> dict:
         values = [by_site[s["id"]].get(key) for s in sites]
         if all(v is None for v in values) and not any(key in by_site[s["id"]] for s in sites):
             continue
+        numbers = [abs(float(v)) for v in values if v is not None]
+        if unit in ("Mbit/s", "MHz") and numbers:  # the prefix that suits the row: kbit/s for a deep-space link
+            scale, unit = _scaled(max(numbers), unit[1:])
         cells = ["n/a" if v is None else _f(v, decimals, scale) for v in values]
         rows.append({"key": key, "label": label, "unit": unit, "scale": f"{scale:g}", "cells": cells,
                      "source": _source(source, recs), "strong": key == "margin_db"})
@@ -731,10 +754,10 @@ def _volume(best: dict, tables: dict) -> dict:
     v = m.get("volume")
     if v:
         out["volume"] = [
-            ("the best design at its own fixed rate", f"{v['rate_bps'] / 1e6:,.4g} Mbit/s",
+            ("the best design at its own fixed rate", _rate(v["rate_bps"]),
              _f(v["fixed_rate_bits_per_day"], 1, 1e9)),
             (f"the best fixed rate ({v['best_fixed_modcod_id']}, closing from {v['best_fixed_threshold_deg']:g} deg "
-             "or each site's mask)", f"{v['best_fixed_rate_bps'] / 1e6:,.4g} Mbit/s",
+             "or each site's mask)", _rate(v["best_fixed_rate_bps"]),
              _f(v["best_fixed_bits_per_day"], 1, 1e9)),
             ("a variable rate (best coded modulation per site and elevation bin)",
              f"{v['variable_gain_percent']:+.1f} % over the best fixed rate", _f(v["variable_rate_bits_per_day"], 1, 1e9)),
