@@ -76,3 +76,15 @@ def test_a_hung_second_process_is_stopped_and_replaced(res, monkeypatch):
     t0 = time.monotonic()
     assert plots.trade_plots(res, software="tradeopt test", processes=2) == one
     assert time.monotonic() - t0 < 60.0
+
+
+def test_no_second_process_on_a_busy_or_single_processor_machine(monkeypatch):
+    # Catches: a second process started when it can only compete with the first for one processor.
+    monkeypatch.setattr(plots, "_processors", lambda: 2)
+    monkeypatch.setattr(plots.os, "getloadavg", lambda: (0.3, 0.3, 0.3))
+    assert plots._second_processor_free()
+    monkeypatch.setattr(plots.os, "getloadavg", lambda: (1.7, 1.0, 1.0))
+    assert not plots._second_processor_free()
+    monkeypatch.setattr(plots, "_processors", lambda: 1)
+    monkeypatch.setattr(plots.os, "getloadavg", lambda: (0.0, 0.0, 0.0))
+    assert not plots._second_processor_free()

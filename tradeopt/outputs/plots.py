@@ -320,11 +320,30 @@ def _render(res, names, software: str) -> dict[str, bytes]:
     return out
 
 
+def _import_matplotlib() -> None:
+    """Import what the figure builders use, so that a forked second process inherits it (not twice)."""
+    import importlib  # noqa: PLC0415
+
+    for name in ("matplotlib.backends.backend_agg", "matplotlib.cm", "matplotlib.colorbar", "matplotlib.figure",
+                 "matplotlib.lines", "matplotlib.ticker", "pandas"):
+        importlib.import_module(name)
+
+
 def _processors() -> int:
     try:
         return len(os.sched_getaffinity(0))
     except AttributeError:  # pragma: no cover  (not Linux)
         return os.cpu_count() or 1
+
+
+def _second_processor_free() -> bool:
+    """Whether a second process can draw at the same time: Linux (fork), two processors for this
+    process, and at least one of them idle over the last minute (on a busy machine a second process
+    only competes with the first)."""
+    if not (sys.platform.startswith("linux") and hasattr(os, "fork")):
+        return False
+    n = _processors()
+    return n >= 2 and os.getloadavg()[0] <= n - 1
 
 
 def _start_second_process(res, names, software: str):
@@ -382,8 +401,9 @@ def trade_plots(res, *, software: str, processes: int | None = None) -> dict[str
         Text of the PNG ``Software`` field [-] (versions; no time stamp, so output is reproducible).
     processes : int, optional
         1 draws every figure in this process; 2 draws half of them in a forked second process at the
-        same time (Linux); default: 2 when two processors are available to this process. The PNG bytes
-        are the same either way; a second process that fails or hangs is replaced by drawing here.
+        same time (Linux); default: 2 when a second processor is free (:func:`_second_processor_free`).
+        The PNG bytes are the same either way; a second process that fails or hangs is replaced by
+        drawing here.
 
     Returns
     -------
@@ -391,9 +411,10 @@ def trade_plots(res, *, software: str, processes: int | None = None) -> dict[str
         PNG file name -> bytes.
     """
     if processes is None:
-        processes = 2 if (sys.platform.startswith("linux") and hasattr(os, "fork") and _processors() >= 2) else 1
+        processes = 2 if _second_processor_free() else 1
     names = [name for name, _ in _FIGURES]
     if processes >= 2:
+        _import_matplotlib()
         child = _start_second_process(res, _SECOND_PROCESS, software)
         here = _render(res, [n for n in names if n not in _SECOND_PROCESS], software)
         there = _collect_second_process(*child, _SECOND_PROCESS_TIMEOUT_S)
