@@ -113,10 +113,10 @@ def _loop_rate(space, limits, n_sample: int) -> float:
 
     st = space.site_terms
     rng = np.random.default_rng(11)
-    g_all = rng.integers(0, len(space.x_g), n_sample)
-    a_all = rng.integers(0, len(space.y_a), n_sample)
-    m_all = rng.integers(0, len(space.z_m), n_sample)
-    c_all = rng.integers(0, len(space.w_c), n_sample)
+    g_all = rng.integers(0, len(space.ground_term_db), n_sample)
+    a_all = rng.integers(0, len(space.craft_antenna_term_db), n_sample)
+    m_all = rng.integers(0, len(space.amplifier_term_db), n_sample)
+    c_all = rng.integers(0, len(space.modcod_term_db), n_sample)
     gr = space.ground
     from tradeopt.trade.linkcalc import end_gain_and_pointing
 

@@ -120,13 +120,13 @@ def test_build_band_space_works_on_a_fresh_scenario():
     plan = plan_mission(sc)
     space = build_band_space(sc, "X-DOWN", plan)
     assert space.rate_bps == plan.rate_bps and space.geometry is plan.geometry
-    assert space.size > 0 and np.isfinite(space.x_g).all() and np.isfinite(space.const_db)
+    assert space.size > 0 and np.isfinite(space.ground_term_db).all() and np.isfinite(space.constant_term_db)
     # the site terms are at the plan's geometry (propagated range at each required site's mask)
     for j, site_id in enumerate(space.site_terms.site_ids):
         assert (space.site_terms.elevation_deg[j], space.site_terms.range_m[j]) == plan.geometry.sites[site_id]
     # same plan, another fresh scenario object: the same space (no hidden state)
     again = build_band_space(load_scenario(None), "X-DOWN", plan)
-    assert np.array_equal(again.x_g, space.x_g) and again.const_db == space.const_db
+    assert np.array_equal(again.ground_term_db, space.ground_term_db) and again.constant_term_db == space.constant_term_db
 
 
 def test_network_choice_returns_a_new_plan():

@@ -77,7 +77,7 @@ def sized():
 
 
 def _rest(space, a: int, m: int, c: int) -> float:
-    return float(space.y_a[a] + space.z_m[m] + space.w_c[c] + space.const_db)
+    return float(space.craft_antenna_term_db[a] + space.amplifier_term_db[m] + space.modcod_term_db[c] + space.constant_term_db)
 
 
 def _index(table, column: str, ident: str) -> int:

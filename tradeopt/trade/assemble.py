@@ -121,7 +121,7 @@ def _dish_tables(res):
             row["is_knee"] = curve["knee_diameter_m"] is not None and float(d) == curve["knee_diameter_m"]
             curve_rows.append(row)
         d_max, dmin = res.min_dish[space.band_id]
-        n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
+        n_a, n_m, n_c = len(space.craft_antenna_term_db), len(space.amplifier_term_db), len(space.modcod_term_db)
         for j, dj in enumerate(dmin):
             a, m, c = np.unravel_index(j, (n_a, n_m, n_c))
             dish_rows.append({"band_id": space.band_id,

@@ -98,11 +98,11 @@ def evaluate_block(space, limits: Limits, gs: slice, as_: slice) -> BlockResult:
     BlockResult
         Flattened arrays, C order over (g, a, m, c).
     """
-    x = space.x_g[gs][:, None, None, None]
-    y = space.y_a[as_][None, :, None, None]
-    z = space.z_m[None, None, :, None]
-    w = space.w_c[None, None, None, :]
-    margin = (x + y) + (z + w) + space.const_db
+    x = space.ground_term_db[gs][:, None, None, None]
+    y = space.craft_antenna_term_db[as_][None, :, None, None]
+    z = space.amplifier_term_db[None, None, :, None]
+    w = space.modcod_term_db[None, None, None, :]
+    margin = (x + y) + (z + w) + space.constant_term_db
     shape = margin.shape
     bw = space.bandwidth_c_hz[None, None, None, :]
     mass = (space.mass_a[as_][:, None] + space.mass_m[None, :])[None, :, :, None]
@@ -168,9 +168,9 @@ class _Fixed:
 
 
 def _fixed(space, limits: Limits, objective: str) -> _Fixed:
-    n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
+    n_a, n_m, n_c = len(space.craft_antenna_term_db), len(space.amplifier_term_db), len(space.modcod_term_db)
     shape = (n_a, n_m, n_c)
-    rest = space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :] + space.const_db
+    rest = space.craft_antenna_term_db[:, None, None] + space.amplifier_term_db[None, :, None] + space.modcod_term_db[None, None, :] + space.constant_term_db
     if space.pfd_worst_db is None:
         pfd = np.full(shape, -np.inf)
     else:
@@ -190,7 +190,7 @@ def _fixed(space, limits: Limits, objective: str) -> _Fixed:
 
 def _record(space, fixed: _Fixed, limits: Limits, g: int, a: int, m: int, c: int, band_order: int) -> dict:
     """Everything known about one design, as a plain dict."""
-    margin = float(space.x_g[g] + fixed.rest_db[a, m, c])
+    margin = float(space.ground_term_db[g] + fixed.rest_db[a, m, c])
     values = {"bandwidth_hz": float(space.bandwidth_c_hz[c]), "margin_db": margin,
               "pfd_excess_db": float(fixed.pfd_excess_db[a, m, c]), "mass_kg": float(fixed.mass_kg[a, m, c]),
               "dc_power_w": float(fixed.dc_power_w[a, m, c])}
@@ -272,7 +272,7 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
         best_rec = None
         front: list = []
         for gs, as_ in iter_blocks(space.shape, max_block_designs):
-            x = space.x_g[gs]
+            x = space.ground_term_db[gs]
             # Every design of the block checked against the required margin, in one broadcast pass.
             closes = x[:, None, None, None] >= need[None, as_]
             n_mok = closes.view(np.uint8).sum(axis=0, dtype=np.int32)  # (ab, M, C): ground antennas that close
@@ -340,9 +340,9 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
         # Closest infeasible designs: for each (a, m, c) the largest-margin ground antenna is the
         # closest of its row (same fixed constraints, least margin shortfall).
         closest = []
-        if len(space.x_g) and fx.code.size:
-            g_top = int(np.argmax(space.x_g))
-            margin_top = space.x_g[g_top] + fx.rest_db
+        if len(space.ground_term_db) and fx.code.size:
+            g_top = int(np.argmax(space.ground_term_db))
+            margin_top = space.ground_term_db[g_top] + fx.rest_db
             shape = fx.code.shape
             values = {"bandwidth_hz": space.bandwidth_c_hz[None, None, :], "margin_db": margin_top,
                       "pfd_excess_db": fx.pfd_excess_db, "mass_kg": fx.mass_kg, "dc_power_w": fx.dc_power_w}

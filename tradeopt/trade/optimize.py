@@ -145,7 +145,7 @@ def _ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
     st = space.site_terms
     site = int(space.limiting_site_g[g])
     t_clear_k = float(st.system_noise_temperature_k[g, 0] - st.sky_noise_increase_k[g, 0])
-    gain_minus_point_db = float(space.x_g[g] - st.path_and_noise_db[g, site])
+    gain_minus_point_db = float(space.ground_term_db[g] - st.path_and_noise_db[g, site])
     return gain_minus_point_db, t_clear_k
 
 
@@ -191,7 +191,7 @@ def _evidence(scenario, res: TradeWork) -> None:
                                         "total_db": float(t["total_db"][i])})
         if best is None:
             continue
-        rest = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c[best["c"]] + space.const_db
+        rest = space.craft_antenna_term_db[best["a"]] + space.amplifier_term_db[best["m"]] + space.modcod_term_db[best["c"]] + space.constant_term_db
         gain_minus_point, t_clear = _ground_terms(space, g)
         for site in [s for s in scenario.sites if s.required]:
             # The first point is the optimizer's own geometry at the mask (propagated range when the
@@ -353,8 +353,8 @@ def run_trade(scenario, *, objective: str | None = None, max_block_designs: int 
             model = dish_model(scenario, space)
             res.notes.extend(model.notes)
             res.curves[space.band_id] = dish_curve(model, space, limits, objective)
-            rest = (space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :]
-                    + space.const_db).reshape(-1)
+            rest = (space.craft_antenna_term_db[:, None, None] + space.amplifier_term_db[None, :, None] + space.modcod_term_db[None, None, :]
+                    + space.constant_term_db).reshape(-1)
             res.min_dish[space.band_id] = (model.diameters_m.max(), min_dish_diameter_m(model, limits.required_margin_db,
                                                                                         rest))
             res.least_power[space.band_id] = least_rf_power_w(space, limits.required_margin_db)
@@ -393,7 +393,7 @@ def _volume_analysis(scenario, res: TradeWork, best: dict) -> dict:
     g = best["g"]
     row = space.ground.iloc[g]
     gain_minus_point, t_clear = _ground_terms(space, g)
-    rest_c = space.y_a[best["a"]] + space.z_m[best["m"]] + space.w_c + space.const_db  # (C,)
+    rest_c = space.craft_antenna_term_db[best["a"]] + space.amplifier_term_db[best["m"]] + space.modcod_term_db + space.constant_term_db  # (C,)
     info = space.modcods["info_bits_per_symbol"].to_numpy(float)
     roll = space.modcods["rolloff"].to_numpy(float)
     bw_cap = space.available_bandwidth_hz * info / (1.0 + roll)

@@ -126,8 +126,8 @@ def least_rf_power_w(space, required_margin_db: float) -> np.ndarray:
     -------
     power_w : ndarray, shape (G, A, C)
     """
-    p_dbw = required_margin_db - (space.x_g[:, None, None] + space.y_a[None, :, None] + space.w_c[None, None, :]
-                                  + space.const_db)
+    p_dbw = required_margin_db - (space.ground_term_db[:, None, None] + space.craft_antenna_term_db[None, :, None] + space.modcod_term_db[None, None, :]
+                                  + space.constant_term_db)
     return np.power(10.0, p_dbw / 10.0)
 
 
@@ -146,8 +146,8 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
         (indices; -1 where nothing is feasible), ``knee_diameter_m`` and ``knee_value`` (the
         objective there, [kg] or [W]; both None when nothing closes).
     """
-    n_a, n_m, n_c = len(space.y_a), len(space.z_m), len(space.w_c)
-    rest = space.y_a[:, None, None] + space.z_m[None, :, None] + space.w_c[None, None, :] + space.const_db
+    n_a, n_m, n_c = len(space.craft_antenna_term_db), len(space.amplifier_term_db), len(space.modcod_term_db)
+    rest = space.craft_antenna_term_db[:, None, None] + space.amplifier_term_db[None, :, None] + space.modcod_term_db[None, None, :] + space.constant_term_db
     mass = (space.mass_a[:, None] + space.mass_m[None, :])[:, :, None] * np.ones((1, 1, n_c))
     dc = np.broadcast_to(space.dc_power_m[None, :, None], rest.shape)
     if space.pfd_worst_db is None:

@@ -71,11 +71,12 @@ class BandSpace:
     craft_antennas: object  # DataFrame (axis a)
     amplifiers: object  # DataFrame (axis m)
     modcods: object  # DataFrame (axis c)
-    x_g: np.ndarray
-    y_a: np.ndarray
-    z_m: np.ndarray
-    w_c: np.ndarray
-    const_db: float
+    #: The margin of design (g, a, m, c) is the sum of one term per axis and a constant [dB]:
+    ground_term_db: np.ndarray  # X[g]: ground gain - pointing loss + the limiting required site's path and G/T
+    craft_antenna_term_db: np.ndarray  # Y[a]: spacecraft antenna gain - line loss - pointing loss
+    amplifier_term_db: np.ndarray  # Z[m]: RF power [dBW]
+    modcod_term_db: np.ndarray  # W[c]: - required Eb/N0
+    constant_term_db: float  # losses, Boltzmann, rate and implementation loss
     limiting_site_g: np.ndarray  # index of the worst required site per ground antenna
     site_terms: SiteTerms
     mass_a: np.ndarray
@@ -94,7 +95,7 @@ class BandSpace:
     @property
     def shape(self) -> tuple:
         """(G, A, M, C)."""
-        return (len(self.x_g), len(self.y_a), len(self.z_m), len(self.w_c))
+        return (len(self.ground_term_db), len(self.craft_antenna_term_db), len(self.amplifier_term_db), len(self.modcod_term_db))
 
     @property
     def size(self) -> int:
@@ -319,8 +320,9 @@ def build_band_space(scenario, band_id: str, plan) -> BandSpace:
         notes.append(f"{band_id}: {gid} pointing error exceeds half its beamwidth; its pointing loss is understated")
 
     return BandSpace(band_id=band_id, band=letter, frequency_hz=f_hz, available_bandwidth_hz=available,
-                     ground=ground, craft_antennas=craft, amplifiers=amps, modcods=mods, x_g=x_g, y_a=y_a, z_m=p_dbw,
-                     w_c=w_c, const_db=float(const), limiting_site_g=worst, site_terms=st,
+                     ground=ground, craft_antennas=craft, amplifiers=amps, modcods=mods, ground_term_db=x_g,
+                     craft_antenna_term_db=y_a, amplifier_term_db=p_dbw, modcod_term_db=w_c,
+                     constant_term_db=float(const), limiting_site_g=worst, site_terms=st,
                      mass_a=craft["mass_kg"].to_numpy(float), mass_m=mass_m, dc_power_m=dc_m, eirp_am_dbw=eirp_am,
                      bandwidth_c_hz=bw_c, pfd_density_c_db=dens, pfd_worst_db=pfd_worst,
                      pfd_worst_angle_deg=pfd_angle, rate_bps=rate_bps, geometry=plan.geometry,
