@@ -151,6 +151,7 @@ def test_json_of_explicit_link_matches_hand_computation(explicit_file, capsys):
     assert any(a.startswith("free space only") for a in rec["assumptions"])
 
 
+@pytest.mark.slow  # a whole run or every figure drawn twice (about 3-5 s)
 def test_json_of_catalog_example_with_site(capsys):
     rc, out, err = run(capsys, "budget", str(EXAMPLE), "--json")
     assert rc == 0 and err == ""

@@ -15,6 +15,9 @@ import pytest
 
 from tradeopt.cli import main
 
+# Whole optimize runs on a fake terminal (about 15 s together): out of the fast set.
+pytestmark = pytest.mark.slow
+
 #: A small scenario that runs in a few seconds: fixed range (no orbit to propagate), one band,
 #: one ground antenna, a two-point dish curve (invented site; demo values).
 SMALL = """\

@@ -187,6 +187,7 @@ def test_nothing_feasible_is_said_and_draws_no_colour_bar(res_infeasible):
     assert "no feasible design" in [t.get_text() for t in plots.dish_curve_figure(res_infeasible).axes[0].texts]
 
 
+@pytest.mark.slow  # a whole run or every figure drawn twice (about 3-5 s)
 def test_png_bytes_are_identical_for_identical_inputs_and_figures_are_closed(res):
     # Catches: time stamps or unordered iteration in the PNG output, and figures left open
     # (memory growth over many runs).

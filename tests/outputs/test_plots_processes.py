@@ -11,7 +11,8 @@ from tradeopt.inputs.scenario import scenario_from_dict
 from tradeopt.outputs import plots
 from tradeopt.trade.optimize import optimize
 
-pytestmark = pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the second process is forked (Linux)")
+pytestmark = [pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the second process is forked (Linux)"),
+              pytest.mark.slow]  # forks and draws every figure twice (about 3 s)
 
 # An invented scenario: fixed range (no orbit to propagate), two bands, one site.
 SCENARIO = {

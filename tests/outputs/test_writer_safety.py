@@ -247,6 +247,7 @@ def test_optimize_default_folder_obeys_the_same_rule(scenario, tmp_path, capsys,
     assert snapshot(default) == before
 
 
+@pytest.mark.slow  # a whole run or every figure drawn twice (about 3-5 s)
 def test_optimize_writes_a_marked_default_folder(scenario, tmp_path, capsys, monkeypatch):
     # Bug: the checks must not stop a real trade into a new default folder, which must carry the marker.
     monkeypatch.chdir(tmp_path)
