@@ -9,6 +9,7 @@ the cumulative elevation distribution: common practice.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -32,6 +33,33 @@ def _check_edges(bin_edges_deg: npt.ArrayLike) -> npt.NDArray[np.float64]:
         raise ValueError("bin_edges_deg must be at least two strictly increasing elevations, e.g. [5, 10, 20, 90]")
     check_range("bin_edges_deg", edges, -90.0, 90.0, "elevation histogram")
     return edges
+
+
+def _midpoint_samples(satrec: Satrec, start_utc: Any, days: float, site: Any, step_s: float,
+                      chunk_s: float) -> Iterator[tuple[npt.NDArray[np.float64], npt.NDArray[np.float64]]]:
+    """Elevations [deg] at the midpoints of intervals of ``step_s`` over the window, chunk by chunk.
+
+    Yields ``(elevation_deg, interval_s)``: elevations shaped (n_sites, n) and each interval's length
+    [s] (the last one shorter if needed); the midpoint rule weights each elevation by its interval.
+    """
+    sat = _satrec(satrec)
+    _check_step(step_s, chunk_s)
+    clock = _clock(start_utc, days)
+    step_s = float(step_s)
+    total = clock.total_s
+    n_int = int(math.ceil(total / step_s - 1e-9))
+    per_chunk = max(1, int(round(float(chunk_s) / step_s)))
+    for k0 in range(0, n_int, per_chunk):
+        k = np.arange(k0, min(k0 + per_chunk, n_int))
+        t_lo = k * step_s
+        t_hi = np.minimum(t_lo + step_s, total)
+        yield _elev_outer(sat, clock, site, 0.5 * (t_lo + t_hi)), t_hi - t_lo
+
+
+def _bin_index(elevation_deg: npt.NDArray[np.float64], edges: npt.NDArray[np.float64]) -> npt.NDArray[np.int_]:
+    """Bin of each elevation, ``[edge_i, edge_i+1)`` with the last bin closed; outside: -1 or n_bins."""
+    b = np.searchsorted(edges, elevation_deg, side="right") - 1
+    return np.where(elevation_deg == edges[-1], edges.size - 2, b)
 
 
 def elevation_histogram(satrec: Satrec, start_utc: Any, days: float, sites: Any, bin_edges_deg: npt.ArrayLike, *,
@@ -73,27 +101,15 @@ def elevation_histogram(satrec: Satrec, start_utc: Any, days: float, sites: Any,
     Vallado et al., AIAA 2006-6753 (2006): SGP4. Midpoint-rule time
     integration (common practice).
     """
-    sat = _satrec(satrec)
     site = _sites(sites)
     edges = _check_edges(bin_edges_deg)
-    _check_step(step_s, chunk_s)
-    clock = _clock(start_utc, days)
-    step_s = float(step_s)
-    total = clock.total_s
-    n_int = int(math.ceil(total / step_s - 1e-9))
-    per_chunk = max(1, int(round(float(chunk_s) / step_s)))
     n_bins = edges.size - 1
     hist = np.zeros((site.n, n_bins))
     offsets = (np.arange(site.n) * n_bins)[:, None]
-    for k0 in range(0, n_int, per_chunk):
-        k = np.arange(k0, min(k0 + per_chunk, n_int))
-        t_lo = k * step_s
-        t_hi = np.minimum(t_lo + step_s, total)
-        el = _elev_outer(sat, clock, site, 0.5 * (t_lo + t_hi))
-        b = np.searchsorted(edges, el, side="right") - 1
-        b = np.where(el == edges[-1], n_bins - 1, b)
+    for el, dt in _midpoint_samples(satrec, start_utc, days, site, step_s, chunk_s):
+        b = _bin_index(el, edges)
         ok = (b >= 0) & (b < n_bins)
-        w = np.broadcast_to(t_hi - t_lo, el.shape)
+        w = np.broadcast_to(dt, el.shape)
         hist += np.bincount((b + offsets)[ok], weights=w[ok], minlength=site.n * n_bins).reshape(site.n, n_bins)
     return hist / float(days)
 
@@ -138,31 +154,19 @@ def joint_visibility(satrec: Satrec, start_utc: Any, days: float, sites: Any, bi
     ----------
     Vallado et al., AIAA 2006-6753 (2006): SGP4. Midpoint-rule time integration (common practice).
     """
-    sat = _satrec(satrec)
     site = _sites(sites)
     edges = _check_edges(bin_edges_deg)
-    _check_step(step_s, chunk_s)
     mask = np.broadcast_to(np.asarray(min_elevation_deg, dtype=float), (site.n,))
-    clock = _clock(start_utc, days)
-    step_s = float(step_s)
-    total = clock.total_s
-    n_int = int(math.ceil(total / step_s - 1e-9))
-    per_chunk = max(1, int(round(float(chunk_s) / step_s)))
     n_bins = edges.size - 1
     acc: dict[tuple[int, ...], float] = {}
-    for k0 in range(0, n_int, per_chunk):
-        k = np.arange(k0, min(k0 + per_chunk, n_int))
-        t_lo = k * step_s
-        t_hi = np.minimum(t_lo + step_s, total)
-        el = _elev_outer(sat, clock, site, 0.5 * (t_lo + t_hi))  # (s, n)
-        b = np.searchsorted(edges, el, side="right") - 1
-        b = np.where(el == edges[-1], n_bins - 1, b)
+    for el, dt in _midpoint_samples(satrec, start_utc, days, site, step_s, chunk_s):  # el: (s, n)
+        b = _bin_index(el, edges)
         b = np.where((b >= 0) & (b < n_bins) & (el >= mask[:, None]), b, -1)
         seen = (b >= 0).any(axis=0)
         if not seen.any():
             continue
         rows, inv = np.unique(b[:, seen].T, axis=0, return_inverse=True)
-        w = np.bincount(inv.reshape(-1), weights=(t_hi - t_lo)[seen], minlength=len(rows))
+        w = np.bincount(inv.reshape(-1), weights=dt[seen], minlength=len(rows))
         for row, wk in zip(map(tuple, rows.tolist()), w, strict=True):
             acc[row] = acc.get(row, 0.0) + float(wk)
     keys = sorted(acc)
