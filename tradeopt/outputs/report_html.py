@@ -57,8 +57,9 @@ _TEXT_COLUMNS = ("band_id", "band", "ground_antenna_id", "spacecraft_antenna_id"
 #: value / scale with that many decimals; ``{P.676}`` and the like become the Recommendation's version.
 BUDGET_ROWS = (
     ("frequency_hz", "frequency", "GHz", 1e9, 4, "band catalog: centre of the allocation"),
-    ("elevation_deg", "elevation (at the site's mask)", "deg", 1.0, 2, "scenario: the site's mask"),
-    ("range_m", "slant range", "km", 1e3, 1, "orbit geometry at the mask"),
+    ("elevation_deg", "elevation of the budget", "deg", 1.0, 2,
+     "the site's mask (an orbit), its look angle (a geostationary slot) or the scenario (a fixed range)"),
+    ("range_m", "slant range", "km", 1e3, 1, "orbit geometry at that elevation"),
     ("availability_percent", "availability", "%", 1.0, 3, "scenario"),
     ("tx_power_dbw", "RF output power", "dBW", 1.0, 2, "amplifier catalog"),
     ("tx_line_loss_db", "spacecraft line loss", "dB", 1.0, 2, "spacecraft antenna catalog"),
