@@ -1,4 +1,4 @@
-"""Command line: ``tradeopt budget | optimize | report | demand | contacts | new | catalog check``.
+"""Command line: ``tradeopt budget | optimize | simulate | sweep | report | demand | contacts | new | catalog check``.
 
 Thin: parse, call, print. Heavy imports happen inside the commands so that
 ``tradeopt --help`` stays fast. Bad input prints one line on stderr and exits
@@ -48,6 +48,29 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--json", action="store_true", help="print a JSON summary")
     p.add_argument("--quiet", action="store_true", help="no progress display on stderr (shown only on a terminal)")
 
+    p = sub.add_parser("simulate", help="weather over time: synthetic rain fades (ITU-R P.1853) against real passes")
+    p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
+    p.add_argument("--years", type=int, default=1, help="synthetic years to simulate per site (default 1)")
+    p.add_argument("--seed", type=int, default=0, help="seed of the synthetic weather (default 0)")
+    p.add_argument("--step-s", type=float, default=1.0, help="time step [s] (default 1, the method's own)")
+    p.add_argument("--band", metavar="BAND_ID", help="simulate this band's best design (default: the overall best)")
+    _execution_options(p)
+    p.add_argument("--out", metavar="DIR", help="results folder (default results/<scenario name>-simulation)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--quiet", action="store_true", help="no progress display on stderr (shown only on a terminal)")
+
+    p = sub.add_parser("sweep", help="what-if: re-run the trade over one or two scenario values")
+    p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?", help="default: the embedded demo scenario")
+    p.add_argument("--vary", metavar="KEY=START:STOP:N", action="append", default=[],
+                   help="a dotted scenario key and N values from START to STOP, e.g. "
+                        "requirement.daily_volume_bits=1e11:1e12:10 (once for a line, twice for a grid)")
+    p.add_argument("--objective", choices=("mass", "power"), default=None,
+                   help="minimise spacecraft comm mass or DC power (default: the scenario's)")
+    _execution_options(p)
+    p.add_argument("--out", metavar="DIR", help="results folder (default results/<scenario name>-sweep)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--quiet", action="store_true", help="no progress display on stderr (shown only on a terminal)")
+
     p = sub.add_parser("report", help="re-render report.html of a results folder from its own files")
     p.add_argument("results_dir", metavar="RESULTS_DIR", help="a results folder written by 'tradeopt optimize'")
     p.add_argument("--pdf", action="store_true",
@@ -71,6 +94,15 @@ def build_parser() -> argparse.ArgumentParser:
     c = csub.add_parser("check", help="validate every catalog CSV file")
     c.add_argument("--catalogs", metavar="DIR", help="catalog folder (default: the bundled catalogs/)")
     return parser
+
+
+def _execution_options(p) -> None:
+    """``--workers N | --scheduler ADDRESS``: where the pieces of a study run (tradeopt.study.cluster)."""
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="start a local dask cluster of N worker processes (default: run in this process)")
+    g.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                   help="use an existing dask cluster (started with 'dask scheduler' and 'dask worker')")
 
 
 def _cmd_budget(args) -> int:
@@ -120,6 +152,21 @@ def _cmd_optimize(args) -> int:
                         as_json=args.json, quiet=args.quiet)
 
 
+def _cmd_simulate(args) -> int:
+    from .commands_simulate import run_simulate
+
+    return run_simulate(scenario_path=args.scenario, years=args.years, seed=args.seed, step_s=args.step_s,
+                        band_id=args.band, workers=args.workers, scheduler=args.scheduler, out_dir=args.out,
+                        as_json=args.json, quiet=args.quiet)
+
+
+def _cmd_sweep(args) -> int:
+    from .commands_sweep import run_sweep
+
+    return run_sweep(scenario_path=args.scenario, vary=args.vary, objective=args.objective, workers=args.workers,
+                     scheduler=args.scheduler, out_dir=args.out, as_json=args.json, quiet=args.quiet)
+
+
 def _cmd_report(args) -> int:
     from .commands import run_report
 
@@ -144,7 +191,8 @@ def _cmd_new(args) -> int:
     return run_new(path=args.path)
 
 
-_COMMANDS = {"budget": _cmd_budget, "catalog": _cmd_catalog, "optimize": _cmd_optimize, "report": _cmd_report,
+_COMMANDS = {"budget": _cmd_budget, "catalog": _cmd_catalog, "optimize": _cmd_optimize, "simulate": _cmd_simulate,
+             "sweep": _cmd_sweep, "report": _cmd_report,
              "demand": _cmd_demand, "contacts": _cmd_contacts, "new": _cmd_new}
 
 
