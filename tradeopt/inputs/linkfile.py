@@ -15,6 +15,7 @@ from .errors import InputError
 from .schema import Field, check_known
 from .schema import read_toml as _read_toml
 from .tables import catalog_dir, lookup_rows, one_of, read_table
+from .tolerances import Tolerance, read_tolerances
 
 __all__ = ["LinkSpec", "LINK_SCHEMA", "read_toml", "load_link_file", "link_spec_from_dict", "locate_model_error"]
 
@@ -135,6 +136,7 @@ class LinkSpec:
     amplifier_id: str | None = None
     assumptions: list = field(default_factory=list)
     file: str | None = None
+    tolerances: tuple[Tolerance, ...] = ()  # the [tolerances] table: a design control table of budget terms
 
 
 def read_toml(path: Path | str) -> dict:
@@ -216,6 +218,7 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         Any missing, unknown, inconsistent or out-of-range key.
     """
     t = _read_tables(data, file)
+    tolerances = read_tolerances(data, file=file)
     link, tx, rx, losses, wave = (t[n] for n in ("link", "transmitter", "receiver", "losses", "waveform"))
     notes: list[str] = []
     if "polarization_tilt_deg" not in data["link"]:
@@ -248,12 +251,12 @@ def link_spec_from_dict(data: dict, *, file: str | None = None, catalog: Catalog
         polarization_loss_db=losses["polarization_db"] or 0.0, other_losses_db=losses["other_db"] or 0.0,
         implementation_loss_db=wave["implementation_loss_db"] or 0.0,
         required_margin_db=wave["required_margin_db"] or 0.0, modcod_id=wave["modcod"],
-        amplifier_id=amplifier_id, assumptions=notes, file=file)
+        amplifier_id=amplifier_id, assumptions=notes, file=file, tolerances=tolerances)
 
 
 def _read_tables(data: dict, file: str | None) -> dict:
     """Every table of the link file, converted key by key (``site``: None when there is no [site])."""
-    check_known(data.keys(), list(LINK_SCHEMA), file=file, where="top level", what="table")
+    check_known(data.keys(), [*LINK_SCHEMA, "tolerances"], file=file, where="top level", what="table")
     for name in _REQUIRED_TABLES:
         if name not in data:
             raise InputError(f"missing table [{name}]", file=file, where=f"table [{name}]")

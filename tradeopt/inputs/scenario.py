@@ -35,6 +35,7 @@ from .scenario_types import (
 )
 from .schema import Field, check_known, convert, read_toml
 from .tables import catalog_dir, check_ids, read_table, read_table_array
+from .tolerances import MARGIN_BASES, Tolerance, read_tolerances
 
 __all__ = ["Scenario", "Site", "SCENARIO_SCHEMA", "load_scenario", "scenario_from_dict", "DEFAULT_SCENARIO_NAME",
            "POWER_MASS_KG_PER_W_DEFAULT"]
@@ -152,7 +153,10 @@ _PAYLOAD_FIELDS = [
     Field("compression_sample_file", "str", required=False),
     Field("compression_codec", "choice", choices=("zlib", "bz2", "lzma", "best"), required=False, default="best"),
 ]
-_TOP = list(SCENARIO_SCHEMA) + ["sites", "bandwidth_limits_hz", "payloads"]
+_TOP = list(SCENARIO_SCHEMA) + ["sites", "bandwidth_limits_hz", "payloads", "tolerances"]
+#: ``[scenario] margin_basis``: the margin statistic the required margin applies to (read apart from
+#: :data:`SCENARIO_SCHEMA`, like the site and payload fields).
+_MARGIN_BASIS_FIELD = Field("margin_basis", "choice", choices=MARGIN_BASES, required=False, default="nominal")
 
 
 @dataclass(frozen=True)
@@ -197,6 +201,8 @@ class Scenario:
     notes: list = field(default_factory=list)  # "NOTE: ..." lines: settings the requirement or orbit makes unused
     base_dir: Path | None = None
     file: str = DEFAULT_SCENARIO_NAME
+    tolerances: tuple[Tolerance, ...] = ()  # the [tolerances] table (a design control table of budget terms)
+    margin_basis: str = "nominal"  # the margin statistic the required margin applies to
 
     @property
     def orbit_kind(self) -> str:
@@ -241,6 +247,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     check_known(data.keys(), _TOP, file=file, where="top level", what="table")
     if "scenario" not in data:
         raise InputError("missing table [scenario]", file=file, where="table [scenario]")
+    data, margin_basis = _margin_basis(data, file)
     sc, orbit_v, req_v, link, craft, opts_v = (_read(data, n, file) for n in
                                                ("scenario", "orbit", "requirement", "link", "spacecraft", "options"))
     _check_availability(sc["availability_percent"], file)
@@ -263,6 +270,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     _check_bands(sc["bands"], sc["direction"], catalog, file)
     options = _options(opts_v, catalog, file)
     limits = _bandwidth_limits(data, sc["bands"], file)
+    tolerances = read_tolerances(data, file=file)
     return Scenario(
         name=sc["name"], description=sc["description"], objective=sc["objective"], direction=sc["direction"],
         availability_percent=sc["availability_percent"], required_margin_db=sc["required_margin_db"],
@@ -274,7 +282,17 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         max_comm_mass_kg=craft["max_comm_mass_kg"], max_dc_power_w=craft["max_dc_power_w"],
         power_mass_kg_per_w=craft["power_mass_kg_per_w"],
         dish_curve_max_diameter_m=opts_v["dish_curve_max_diameter_m"], dish_curve_step_m=opts_v["dish_curve_step_m"],
-        base_dir=base_dir, file=file, notes=notes)
+        base_dir=base_dir, file=file, notes=notes, tolerances=tolerances, margin_basis=margin_basis)
+
+
+def _margin_basis(data: dict, file: str) -> tuple[dict, str]:
+    """``[scenario] margin_basis`` (default ``"nominal"``), and the data without it for the table's other keys."""
+    sc = data["scenario"]
+    if not isinstance(sc, dict) or "margin_basis" not in sc:
+        return data, "nominal"
+    basis = convert(sc["margin_basis"], _MARGIN_BASIS_FIELD, file=file, where="key [scenario] margin_basis",
+                    typed=True)
+    return {**data, "scenario": {k: v for k, v in sc.items() if k != "margin_basis"}}, str(basis)
 
 
 def _written(data: dict, name: str) -> set:

@@ -36,6 +36,12 @@ def _reason_texts(res, space, br) -> np.ndarray:
     return reason_texts(br.reason, values, br.shortfall, context(space, res.limits), sites)
 
 
+def _toleranced(res) -> bool:
+    """Whether the scenario has tolerances or a margin basis other than the nominal margin."""
+    sc = res.scenario
+    return bool(getattr(sc, "tolerances", ())) or getattr(sc, "margin_basis", "nominal") != "nominal"
+
+
 def _designs_table(res):
     import pandas as pd  # noqa: PLC0415
 
@@ -51,6 +57,10 @@ def _designs_table(res):
             "mass_kg": br.mass_kg, "dc_power_w": br.dc_power_w, "margin_db": br.margin_db,
             "occupied_bandwidth_hz": br.bandwidth_hz, "feasible": br.reason == 0,
         }
+        if _toleranced(res):  # the statistic the required margin applied to (absent without tolerances)
+            offset = float(getattr(space, "margin_offset_db", 0.0))
+            ids["margin_basis"] = np.full(br.g.size, getattr(space, "margin_basis", "nominal"), dtype=object)
+            ids["basis_margin_db"] = br.margin_db + offset
         reasons = _reason_texts(res, space, br)
         ids["reason"] = reasons
         frames.append(pd.DataFrame(ids))

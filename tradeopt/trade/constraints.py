@@ -16,7 +16,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Constraint", "Context", "CONSTRAINTS", "REASONS", "by_name", "excess", "reason_texts", "miss_texts"]
+__all__ = ["Constraint", "Context", "CONSTRAINTS", "REASONS", "by_name", "excess", "reason_texts", "miss_texts",
+           "quantity_floor"]
 
 
 @dataclass(frozen=True)
@@ -34,6 +35,12 @@ class Context:
         Spacecraft limits [kg], [W] (inf: none).
     pfd_worst_angle_deg : float or None
         Arrival angle where the pfd is worst [deg].
+    margin_basis : str
+        The margin statistic the required margin applies to (``"nominal"``, ``"mean-2sigma"``,
+        ``"mean-3sigma"``, ``"adverse"``; see :mod:`tradeopt.physics.tolerances`).
+    margin_offset_db : float
+        That statistic less the nominal margin [dB], the same for every design (the tolerances are
+        in dB on additive terms): the margin constraint is nominal + offset >= required.
     """
 
     band_id: str
@@ -42,6 +49,13 @@ class Context:
     max_comm_mass_kg: float = float("inf")
     max_dc_power_w: float = float("inf")
     pfd_worst_angle_deg: float | None = None
+    margin_basis: str = "nominal"
+    margin_offset_db: float = 0.0
+
+    @property
+    def basis_words(self) -> str:
+        """The statistic's name before "margin" in a sentence ("" for the nominal margin)."""
+        return "" if self.margin_basis == "nominal" else f"{self.margin_basis} "
 
 
 @dataclass(frozen=True)
@@ -72,6 +86,9 @@ class Constraint:
         Short form; field {excess}.
     closest_rank : int
         Priority among the closest misses (0 first: ranked by the least excess of this constraint).
+    offset : str or None
+        A :class:`Context` attribute added to the quantity before it is compared (the margin: the
+        offset of its statistic from the nominal margin); sentences show the offset value.
     """
 
     code: int
@@ -87,6 +104,11 @@ class Constraint:
     reason: str
     miss: str
     closest_rank: int
+    offset: str | None = None
+
+    def shift(self, ctx: Context) -> float:
+        """What is added to the quantity before it is compared with the level (0 without an offset)."""
+        return 0.0 if self.offset is None else float(getattr(ctx, self.offset))
 
     def level(self, ctx: Context) -> float:
         """The constraint's level in ``ctx`` (in the quantity's unit)."""
@@ -109,8 +131,8 @@ CONSTRAINTS: tuple[Constraint, ...] = (
                "occupied bandwidth {value} MHz exceeds the {limit} MHz {where} by {excess} MHz",
                "bandwidth over by {excess} MHz", 1),
     Constraint(2, "margin", "margin_db", "required_margin_db", False, 1e-12, False, "dB", 1.0, "%.2f",
-               "margin {value} dB is {excess} dB short of the {limit} dB {where}",
-               "margin short by {excess} dB", 0),
+               "{basis}margin {value} dB is {excess} dB short of the {limit} dB {where}",
+               "{basis}margin short by {excess} dB", 0, offset="margin_offset_db"),
     Constraint(3, "pfd", "pfd_excess_db", 0.0, True, 0.0, True, "dB", 1.0, "%.2f",
                "power-flux density exceeds the Radio Regulations Article 21 limit by {excess} dB{where}",
                "pfd over the limit by {excess} dB", 2),
@@ -139,8 +161,17 @@ def by_name(name: str) -> Constraint:
 def excess(constraint: Constraint, values: dict, ctx: Context):
     """Excess of a constraint for arrays of designs (> ``constraint.tolerance``: broken), in the quantity's unit."""
     q = np.asarray(values[constraint.quantity], dtype=float)
-    lvl = constraint.level(ctx)
+    lvl = constraint.level(ctx) - constraint.shift(ctx)
     return q - lvl if constraint.upper else lvl - q
+
+
+def quantity_floor(constraint: Constraint, ctx: Context) -> float:
+    """The level the design quantity itself is compared with (the level less any offset), in its unit.
+
+    For the margin: the required margin less the offset of the margin basis, the floor of the nominal
+    margin that the search, the sizing and the dish curve apply.
+    """
+    return constraint.level(ctx) - constraint.shift(ctx)
 
 
 def _limit_text(constraint: Constraint, ctx: Context) -> str:
@@ -174,7 +205,7 @@ def reason_texts(codes, values: dict, amounts, ctx: Context, limiting_site=None)
         idx = np.flatnonzero(codes == c.code)
         if idx.size == 0:
             continue
-        value = np.asarray(values[c.quantity], dtype=float)[idx] / c.scale
+        value = (np.asarray(values[c.quantity], dtype=float)[idx] + c.shift(ctx)) / c.scale
         amount = amounts[idx] / c.scale
         limit = _limit_text(c, ctx)
         if c.name == "margin" and limiting_site is not None:
@@ -182,7 +213,7 @@ def reason_texts(codes, values: dict, amounts, ctx: Context, limiting_site=None)
             where = [f"required at {s}" for s in sites]
         else:
             where = [c.where(ctx)] * idx.size
-        out[idx] = [c.reason.format(value=c.fmt % v, limit=limit, excess=c.fmt % e, where=w)
+        out[idx] = [c.reason.format(value=c.fmt % v, limit=limit, excess=c.fmt % e, where=w, basis=ctx.basis_words)
                     for v, e, w in zip(value, amount, where)]
     return out
 
@@ -193,7 +224,7 @@ def miss_texts(values: dict, ctx: Context, limiting_site: str | None = None) -> 
     for c in _table():
         amount = float(excess(c, values, ctx))
         if amount > c.tolerance:
-            text = c.miss.format(excess=c.fmt % (amount / c.scale))
+            text = c.miss.format(excess=c.fmt % (amount / c.scale), basis=ctx.basis_words)
             if c.name == "margin" and limiting_site is not None:
                 text += f" at {limiting_site}"
             parts.append(text)

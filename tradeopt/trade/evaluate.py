@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import constraints as cons
-from .constraints import REASONS, Context, by_name, excess
+from .constraints import REASONS, Context, by_name, excess, quantity_floor
 
 __all__ = ["REASONS", "Limits", "BlockResult", "SearchResult", "evaluate_block", "iter_blocks", "search", "context"]
 
@@ -31,7 +31,9 @@ def context(space, limits: Limits) -> Context:
     """The constraint levels of a band (:class:`tradeopt.trade.constraints.Context`)."""
     return Context(band_id=space.band_id, available_bandwidth_hz=float(space.available_bandwidth_hz),
                    required_margin_db=limits.required_margin_db, max_comm_mass_kg=limits.max_comm_mass_kg,
-                   max_dc_power_w=limits.max_dc_power_w, pfd_worst_angle_deg=space.pfd_worst_angle_deg)
+                   max_dc_power_w=limits.max_dc_power_w, pfd_worst_angle_deg=space.pfd_worst_angle_deg,
+                   margin_basis=getattr(space, "margin_basis", "nominal"),
+                   margin_offset_db=float(getattr(space, "margin_offset_db", 0.0)))
 
 
 def _first_broken(values: dict, ctx: Context, shape, constraints=None):
@@ -257,8 +259,9 @@ def search(spaces: list, limits: Limits, *, objective: str = "mass", max_block_d
     res = SearchResult(objective=objective)
     counts = {"feasible": 0, **{c.name: 0 for c in cons.CONSTRAINTS}}  # designs per first broken constraint
     fronts: list = []
-    req = limits.required_margin_db - by_name("margin").tolerance
     for order, space in enumerate(spaces):
+        # the floor of the nominal margin: the required margin applies to the scenario's margin basis
+        req = quantity_floor(by_name("margin"), context(space, limits)) - by_name("margin").tolerance
         fx = _fixed(space, limits, objective)
         fixed_ok = fx.code == 0
         # Over the coded modulations that pass the fixed constraints, the largest non-ground part of

@@ -14,7 +14,7 @@ from scipy.optimize import brentq
 
 from ..physics import noise
 from . import constraints as cons
-from .constraints import by_name, excess
+from .constraints import by_name, excess, quantity_floor
 from .evaluate import context
 from .linkcalc import end_gain_and_pointing
 from .space import site_terms_for_apertures
@@ -94,6 +94,7 @@ def min_dish_diameter_m(model: DishModel, required_margin_db: float, rest_db: np
     ----------
     model : DishModel
     required_margin_db : float
+        On the scenario's margin basis [dB] (the band space's offset is taken off here).
     rest_db : ndarray
         The non-ground part of the margin of each configuration (Y + Z + W + const) [dB].
 
@@ -103,7 +104,7 @@ def min_dish_diameter_m(model: DishModel, required_margin_db: float, rest_db: np
         NaN where no diameter on the grid closes (reported as such, never written as NaN).
     """
     rest = np.atleast_1d(np.asarray(rest_db, dtype=float))
-    need = required_margin_db - rest  # X(D) >= need
+    need = required_margin_db - _offset_db(model.space) - rest  # X(D) >= need
     ok = model.x_d[None, :] >= need[:, None]
     out = np.full(rest.shape, np.nan)
     first = np.argmax(ok, axis=1)
@@ -117,16 +118,22 @@ def min_dish_diameter_m(model: DishModel, required_margin_db: float, rest_db: np
     return out
 
 
+def _offset_db(space) -> float:
+    """The band space's margin-basis offset (statistic less nominal) [dB]; 0 without tolerances."""
+    return float(getattr(space, "margin_offset_db", 0.0))
+
+
 def least_rf_power_w(space, required_margin_db: float) -> np.ndarray:
     """Least RF power [W] that closes each (ground antenna, spacecraft antenna, coded modulation).
 
-    The margin is linear in the RF power in dB: P_min = P + (required - margin) for any P.
+    The margin is linear in the RF power in dB: P_min = P + (required - margin) for any P. The
+    required margin is on the band space's margin basis (its offset from the nominal margin is taken off).
 
     Returns
     -------
     power_w : ndarray, shape (G, A, C)
     """
-    p_dbw = required_margin_db - (space.ground_term_db[:, None, None] + space.craft_antenna_term_db[None, :, None] + space.modcod_term_db[None, None, :]
+    p_dbw = required_margin_db - _offset_db(space) - (space.ground_term_db[:, None, None] + space.craft_antenna_term_db[None, :, None] + space.modcod_term_db[None, None, :]
                                   + space.constant_term_db)
     return np.power(10.0, p_dbw / 10.0)
 
@@ -162,6 +169,7 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
         if con.fixed:
             fixed_ok &= np.broadcast_to(excess(con, values, ctx), rest.shape) <= con.tolerance
     margin_tol = by_name("margin").tolerance
+    floor_db = quantity_floor(by_name("margin"), ctx)  # the nominal margin's floor on the margin basis
     obj = mass if objective == "mass" else dc
     nd = model.diameters_m.size
     out = {k: np.full(nd, np.nan) for k in ("best_mass_kg", "best_dc_power_w", "margin_db")}
@@ -172,7 +180,7 @@ def dish_curve(model: DishModel, space, limits, objective: str) -> dict:
     flat_bw = np.broadcast_to(space.bandwidth_c_hz[None, None, :], rest.shape).reshape(-1)
     for i in range(nd):
         margin = (model.x_d[i] + rest).reshape(-1)
-        feas = fixed_ok.reshape(-1) & (margin >= limits.required_margin_db - margin_tol)
+        feas = fixed_ok.reshape(-1) & (margin >= floor_db - margin_tol)
         if not feas.any():
             continue
         fi = np.flatnonzero(feas)

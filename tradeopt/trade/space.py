@@ -20,11 +20,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..physics import antenna, noise, path, propagation, spectrum, waveform
+from ..physics import antenna, noise, path, propagation, spectrum, tolerances, waveform
 from ..physics.units import BOLTZMANN_DBW_PER_K_HZ
 from .linkcalc import end_gain_and_pointing, sky_noise_increase_at_receiver_k
 
-__all__ = ["BandSpace", "SiteTerms", "build_band_space", "site_terms_for_apertures", "site_geometry"]
+__all__ = ["BandSpace", "SiteTerms", "build_band_space", "site_terms_for_apertures", "site_geometry",
+           "margin_basis_offset_db"]
 
 
 @dataclass
@@ -91,6 +92,8 @@ class BandSpace:
     geometry: object = None  # tradeopt.plan.mission.LinkGeometry the site terms were computed at
     pfd_source: str = ""
     notes: list = field(default_factory=list)
+    margin_basis: str = "nominal"  # the statistic the required margin applies to (the scenario's)
+    margin_offset_db: float = 0.0  # that statistic less the nominal margin [dB], the same for every design
 
     @property
     def shape(self) -> tuple:
@@ -101,6 +104,20 @@ class BandSpace:
     def size(self) -> int:
         """Number of designs."""
         return int(np.prod(self.shape))
+
+
+def margin_basis_offset_db(scenario) -> float:
+    """The scenario's margin statistic less the nominal margin [dB] (0: nominal basis or no tolerances).
+
+    The tolerances are in dB on additive terms, so the offset is the same for every design: the margin
+    constraint of the search is nominal margin + offset >= required margin.
+    """
+    tol = getattr(scenario, "tolerances", ())
+    basis = getattr(scenario, "margin_basis", "nominal")
+    if basis == "nominal" or not tol:
+        return 0.0
+    return tolerances.basis_offset_db(basis, [t.adverse_db for t in tol], [t.favorable_db for t in tol],
+                                      [t.distribution for t in tol])
 
 
 def site_geometry(geometry, sites) -> tuple[np.ndarray, np.ndarray]:
@@ -319,6 +336,11 @@ def build_band_space(scenario, band_id: str, plan) -> BandSpace:
     for gid in ground["ground_antenna_id"][over]:
         notes.append(f"{band_id}: {gid} pointing error exceeds half its beamwidth; its pointing loss is understated")
 
+    offset_db = margin_basis_offset_db(scenario)
+    basis = getattr(scenario, "margin_basis", "nominal")
+    if basis != "nominal":
+        notes.append(f"{band_id}: the required margin applies to the {basis} margin, the nominal margin "
+                     f"{offset_db:+.2f} dB ([tolerances] of the scenario)")
     return BandSpace(band_id=band_id, band=letter, frequency_hz=f_hz, available_bandwidth_hz=available,
                      ground=ground, craft_antennas=craft, amplifiers=amps, modcods=mods, ground_term_db=x_g,
                      craft_antenna_term_db=y_a, amplifier_term_db=p_dbw, modcod_term_db=w_c,
@@ -326,4 +348,5 @@ def build_band_space(scenario, band_id: str, plan) -> BandSpace:
                      mass_a=craft["mass_kg"].to_numpy(float), mass_m=mass_m, dc_power_m=dc_m, eirp_am_dbw=eirp_am,
                      bandwidth_c_hz=bw_c, pfd_density_c_db=dens, pfd_worst_db=pfd_worst,
                      pfd_worst_angle_deg=pfd_angle, rate_bps=rate_bps, geometry=plan.geometry,
-                     pfd_source=pfd_source, notes=notes)
+                     pfd_source=pfd_source, notes=notes, margin_basis=basis,
+                     margin_offset_db=offset_db)
