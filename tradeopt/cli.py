@@ -37,7 +37,11 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("budget", help="term-by-term budget of one link file (TOML)")
     p.add_argument("link_file", metavar="LINK.toml", help="link file; see README, 'Link files'")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
-    p.add_argument("--out", metavar="DIR", help="also write budget.json and budget.txt into DIR")
+    p.add_argument("--out", metavar="DIR", help="also write budget.json and budget.txt into DIR (with [tolerances]: "
+                                                "tornado.png, and margin_histogram.png with --samples)")
+    p.add_argument("--samples", type=_samples, default=None, metavar="N",
+                   help="Monte Carlo: draw the [tolerances] terms N times (1 to 10,000,000)")
+    p.add_argument("--seed", type=_seed, default=0, metavar="S", help="seed of the Monte Carlo draws (default 0)")
 
     p = sub.add_parser("optimize", help="search the catalog design space of a scenario")
     p.add_argument("scenario", metavar="SCENARIO.toml", nargs="?",
@@ -96,6 +100,32 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+#: Most Monte Carlo draws of ``budget --samples`` (a few hundred MB of memory at most).
+BUDGET_SAMPLES_MAX = 10_000_000
+
+
+def _samples(text: str) -> int:
+    """``--samples``: an integer from 1 to :data:`BUDGET_SAMPLES_MAX`."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected an integer number of samples, got {text!r}") from None
+    if not 1 <= n <= BUDGET_SAMPLES_MAX:
+        raise argparse.ArgumentTypeError(f"expected 1 to {BUDGET_SAMPLES_MAX:,} samples, got {n}")
+    return n
+
+
+def _seed(text: str) -> int:
+    """``--seed``: an integer >= 0 (numpy's default_rng)."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected an integer seed >= 0, got {text!r}") from None
+    if n < 0:
+        raise argparse.ArgumentTypeError(f"expected an integer seed >= 0, got {n}")
+    return n
+
+
 def _execution_options(p) -> None:
     """``--workers N | --scheduler ADDRESS``: where the pieces of a study run (tradeopt.study.cluster)."""
     g = p.add_mutually_exclusive_group()
@@ -115,19 +145,36 @@ def _cmd_budget(args) -> int:
         from .outputs.writer import check_out_dir
         check_out_dir(args.out, inputs=[args.link_file])
     spec = load_link_file(args.link_file)
+    if args.samples is not None and not spec.tolerances:
+        from .inputs.errors import InputError
+        raise InputError("--samples draws the [tolerances] terms; the link file has no [tolerances] table",
+                         file=args.link_file, where="table [tolerances]")
     from .inputs.linkfile import locate_model_error
     try:
         result = compute_link(spec)
     except ValueError as exc:
         raise locate_model_error(exc, spec) from None
+    drawn = None
+    if spec.tolerances:
+        from .trade.linkcalc import tolerance_analysis
+        extra, drawn = tolerance_analysis(result["margin_db"], result["required_margin_db"], spec.tolerances,
+                                          samples=args.samples, seed=args.seed)
+        result.update(extra)
     record = budget_record(result)
     record["versions"] = versions(with_recommendations=spec.site is not None)
     record = clean_for_json(record)
     text = format_budget(result, title=f"tradeopt budget: {args.link_file}")
     if args.out is not None:
         from .outputs.writer import write_results
-        write_results(args.out, {"budget.json": json.dumps(record, indent=2, sort_keys=True) + "\n",
-                                 "budget.txt": text + "\n"}, inputs=[args.link_file])
+        files: dict = {"budget.json": json.dumps(record, indent=2, sort_keys=True) + "\n", "budget.txt": text + "\n"}
+        if spec.tolerances:
+            from pathlib import Path
+
+            from . import __version__
+            from .outputs.plots import tolerance_plots
+            title = f"{Path(args.link_file).name}: margin {result['margin_db']:.2f} dB nominal"
+            files.update(tolerance_plots(result, drawn, software=f"tradeopt {__version__}", title=title))
+        write_results(args.out, files, inputs=[args.link_file])
     print(json.dumps(record, indent=2, sort_keys=True) if args.json else text)
     return 0
 

@@ -21,7 +21,7 @@ import time
 import warnings
 
 __all__ = ["trade_plots", "pareto_figure", "dish_curve_figure", "margin_figure", "attenuation_figure",
-           "BAND_STYLE"]
+           "BAND_STYLE", "tornado_figure", "margin_histogram_figure", "tolerance_plots"]
 
 #: Style per band letter: Okabe-Ito colour, marker and line style (colour is never the only cue).
 BAND_STYLE = {
@@ -424,3 +424,90 @@ def trade_plots(res, *, software: str, processes: int | None = None) -> dict[str
     else:
         here = _render(res, names, software)
     return {name: here[name] for name in names}
+
+
+def tornado_figure(record: dict, *, title: str = ""):
+    """Tornado plot of the margin [dB]: each toleranced term at its adverse and favourable end, every
+    other term at its design value, the largest swing at the top.
+
+    Parameters
+    ----------
+    record : dict
+        A budget record with ``sensitivity`` (largest swing first), ``margin_statistics`` and
+        ``required_margin_db`` (:func:`tradeopt.trade.linkcalc.tolerance_analysis`).
+    title : str
+        Figure title.
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+        Adverse ends in vermilion with a hatch, favourable ends in blue (colour is not the only cue).
+    """
+    rows = record["sensitivity"]
+    nominal = record["margin_statistics"]["nominal_db"]
+    fig, ax = _figure(figsize=(7.2, 0.9 + 0.42 * max(1, len(rows))), layout="constrained")
+    y = list(range(len(rows)))[::-1]
+    lo = [r["adverse_margin_db"] - nominal for r in rows]
+    hi = [r["favorable_margin_db"] - nominal for r in rows]
+    ax.barh(y, lo, left=nominal, color="#D55E00", hatch="//", edgecolor="black", linewidth=0.5, label="adverse end")
+    ax.barh(y, hi, left=nominal, color="#0072B2", edgecolor="black", linewidth=0.5, label="favourable end")
+    ax.set_yticks(y, [r["term"] for r in rows])
+    ax.axvline(nominal, color="black", linewidth=1.0, label=f"nominal margin {nominal:.2f} dB")
+    req = record.get("required_margin_db")
+    if req is not None:
+        ax.axvline(req, color="black", linewidth=1.2, linestyle=(0, (6, 2, 1, 2)), label=f"required {req:g} dB")
+    ax.set_xlabel("margin [dB] with one term at an end of its tolerance")
+    ax.set_title(title or "sensitivity of the margin to each toleranced term")
+    ax.grid(alpha=0.3, axis="x")
+    ax.legend(fontsize=7, loc="best")
+    return fig
+
+
+def margin_histogram_figure(margin_samples_db, record: dict, *, title: str = ""):
+    """Histogram of Monte Carlo margins [dB], with the required margin, the analytic mean and the 1st percentile.
+
+    Parameters
+    ----------
+    margin_samples_db : array_like
+        Drawn margins [dB].
+    record : dict
+        A budget record with ``monte_carlo``, ``margin_statistics`` and ``required_margin_db``.
+    title : str
+        Figure title.
+
+    Returns
+    -------
+    fig : matplotlib.figure.Figure
+    """
+    import numpy as np  # noqa: PLC0415
+
+    x = np.asarray(margin_samples_db, dtype=float)
+    mc, st = record["monte_carlo"], record["margin_statistics"]
+    fig, ax = _figure(figsize=(7.2, 4.4), layout="constrained")
+    ax.hist(x, bins=min(100, max(10, int(np.sqrt(x.size)))), color=_GREY, edgecolor="#555555", linewidth=0.3,
+            label=f"{mc['samples']:,} samples (seed {mc['seed']})")
+    req = record["required_margin_db"]
+    ax.axvline(req, color="black", linewidth=1.2, linestyle=(0, (6, 2, 1, 2)),
+               label=f"required {req:g} dB (P(meets) = {mc['probability_meets_required']:.4f})")
+    ax.axvline(st["mean_db"], color="#0072B2", linewidth=1.2, label=f"analytic mean {st['mean_db']:.2f} dB")
+    ax.axvline(mc["p1_db"], color="#D55E00", linewidth=1.2, linestyle="--",
+               label=f"1st percentile {mc['p1_db']:.2f} dB")
+    ax.set_xlabel("margin [dB]")
+    ax.set_ylabel("samples")
+    ax.set_title(title or "Monte Carlo margin")
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=7)
+    return fig
+
+
+def tolerance_plots(record: dict, margin_samples_db=None, *, software: str, title: str = "") -> dict[str, bytes]:
+    """``tornado.png`` and (with samples) ``margin_histogram.png`` of a toleranced budget, as PNG bytes."""
+    from matplotlib import rc_context  # noqa: PLC0415
+
+    out = {}
+    with rc_context(_RC):
+        out["tornado.png"] = _png(tornado_figure(record, title=title), software)
+        if margin_samples_db is not None and record.get("monte_carlo"):
+            out["margin_histogram.png"] = _png(margin_histogram_figure(margin_samples_db, record, title=title),
+                                               software)
+    return out

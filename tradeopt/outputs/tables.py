@@ -73,11 +73,19 @@ def format_budget(result: dict, *, title: str = "") -> str:
     for label, value, unit in geo:
         lines.append(f"  {label:<{width}} {value:>14}  {unit}")
     lines.append("  " + "-" * (width + 24))
+    tol = {t["term"]: t for t in result.get("tolerances") or ()}
+    if tol:
+        lines.append(f"  {'':<{width}} {'':>14}  {'':<9} {'adverse':>8} {'favourable':>11}  (effect on margin, dB)")
     for key in BUDGET_TERMS:
         if result.get(key) is None:  # e.g. receive gain of a receiver given by its G/T alone
             value, unit = "n/a", BUDGET_TERMS[key]
         else:
             value, unit = _fmt(key, result[key])
+        if key in tol:
+            t = tol[key]
+            lines.append(f"  {_LABELS[key]:<{width}} {value:>14}  {unit:<9} {-t['adverse_db']:>8.2f} "
+                         f"{t['favorable_db']:>+11.2f}  {t['distribution']}")
+            continue
         lines.append(f"  {_LABELS[key]:<{width}} {value:>14}  {unit}")
         if key in ("eirp_dbw", "atmospheric_loss_db", "other_losses_db", "gt_dbk", "cn0_dbhz", "ebn0_db"):
             lines.append("")
@@ -85,12 +93,37 @@ def format_budget(result: dict, *, title: str = "") -> str:
     status = "closes" if result["margin_db"] >= result["required_margin_db"] else "DOES NOT CLOSE"
     lines.append(f"  link {status}: margin {result['margin_db']:.2f} dB against {result['required_margin_db']:.2f}"
                  " dB required")
+    if tol:
+        lines.extend(_tolerance_lines(result, width))
     lines.append("  caution: a design-stage estimate; spectrum use needs coordination and a licence from the "
                  "regulator; RF exposure near transmitting antennas follows local codes (README, Cautions)")
     if result.get("assumptions"):
         lines.append("assumptions:")
         lines.extend(f"  - {a}" for a in result["assumptions"])
     return "\n".join(line.rstrip() for line in lines)
+
+
+_STATISTIC_LABELS = {"nominal_db": "nominal (design values)", "mean_db": "mean", "sigma_db": "standard deviation",
+                     "mean_minus_2sigma_db": "mean - 2 sigma", "mean_minus_3sigma_db": "mean - 3 sigma",
+                     "adverse_db": "adverse (every term)",
+                     "favorable_db": "favourable (every term)"}
+
+
+def _tolerance_lines(result: dict, width: int) -> list[str]:
+    """The margin statistics, the sensitivity (largest swing first) and any Monte Carlo summary."""
+    lines = ["", "  margin statistics (design control table)"]
+    lines += [f"  {_STATISTIC_LABELS[k]:<{width}} {v:>14.2f}  dB" for k, v in result["margin_statistics"].items()]
+    lines += ["", f"  sensitivity (one term at a time)  {'margin adverse':>14} {'favourable':>11} {'swing':>8}"]
+    lines += [f"  {_LABELS.get(r['term'], r['term']).strip():<{width}} {r['adverse_margin_db']:>14.2f} "
+              f"{r['favorable_margin_db']:>11.2f} {r['swing_db']:>8.2f}  dB" for r in result["sensitivity"]]
+    mc = result.get("monte_carlo")
+    if mc:
+        lines += ["", f"  Monte Carlo ({mc['samples']:,} samples, seed {mc['seed']})",
+                  f"  {'mean':<{width}} {mc['mean_db']:>14.2f}  dB",
+                  f"  {'standard deviation':<{width}} {mc['std_db']:>14.2f}  dB",
+                  f"  {'1st percentile':<{width}} {mc['p1_db']:>14.2f}  dB",
+                  f"  {'P(margin >= required)':<{width}} {mc['probability_meets_required']:>14.4f}"]
+    return lines
 
 
 def _spectrum_lines(result: dict, width: int) -> list[str]:

@@ -8,10 +8,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..physics import antenna, budget, noise, path, propagation, spectrum, waveform
+from ..physics import antenna, budget, noise, path, propagation, spectrum, tolerances, waveform
 from ..physics.validity import check_range
 
-__all__ = ["end_gain_and_pointing", "compute_link", "sky_noise_increase_at_receiver_k"]
+__all__ = ["end_gain_and_pointing", "compute_link", "sky_noise_increase_at_receiver_k", "tolerance_analysis"]
 
 
 def end_gain_and_pointing(*, frequency_hz, gain_dbi=None, diameter_m=None, efficiency=None,
@@ -209,3 +209,52 @@ def spectrum_terms(spec, terms: dict, notes: list) -> dict:
         out.update(pfd_dbw_m2=pfd, pfd_limit_dbw_m2=limit, pfd_margin_db=limit - pfd, pfd_reference_bandwidth_hz=ref)
         notes.append(f"pfd limit: {lim['source']}; boresight EIRP at the budget's range and elevation")
     return out
+
+
+def tolerance_analysis(margin_db: float, required_margin_db: float, tols, *, samples: int | None = None,
+                       seed: int = 0) -> tuple[dict, np.ndarray | None]:
+    """The design-control-table view of one budget: each term's moments, the margin statistics, the
+    one-at-a-time sensitivity and (with ``samples``) a seeded Monte Carlo draw.
+
+    Parameters
+    ----------
+    margin_db, required_margin_db : float
+        The budget's nominal margin and its required margin [dB].
+    tols : sequence of tradeopt.inputs.tolerances.Tolerance
+        The toleranced terms (at least one).
+    samples : int, optional
+        Monte Carlo draws (none: no ``monte_carlo``).
+    seed : int
+        Seed of the one generator.
+
+    Returns
+    -------
+    record : dict
+        ``tolerances`` (per term: ``term``, ``adverse_db``, ``favorable_db``, ``distribution``,
+        ``mean_db``, ``variance_db2``), ``margin_statistics`` (:func:`tradeopt.physics.tolerances.
+        margin_statistics`), ``sensitivity`` (per term, the largest swing first: ``term``,
+        ``adverse_margin_db``, ``favorable_margin_db``, ``swing_db``) and, with samples,
+        ``monte_carlo`` (``samples``, ``seed``, ``mean_db``, ``std_db``, ``p1_db``,
+        ``probability_meets_required``).
+    margin_samples_db : ndarray or None
+        The drawn margins [dB] (for the histogram).
+    """
+    a = np.array([t.adverse_db for t in tols], dtype=float)
+    f = np.array([t.favorable_db for t in tols], dtype=float)
+    d = [t.distribution for t in tols]
+    mean, var = tolerances.term_moments(a, f, d)
+    terms = [{"term": t.term, "adverse_db": float(a[i]), "favorable_db": float(f[i]), "distribution": d[i],
+              "mean_db": float(np.atleast_1d(mean)[i]), "variance_db2": float(np.atleast_1d(var)[i])}
+             for i, t in enumerate(tols)]
+    lo, hi, order = tolerances.sensitivity(margin_db, a, f)
+    sens = [{"term": tols[i].term, "adverse_margin_db": float(lo[i]), "favorable_margin_db": float(hi[i]),
+             "swing_db": float(hi[i] - lo[i])} for i in order]
+    record = {"tolerances": terms, "margin_statistics": tolerances.margin_statistics(margin_db, a, f, d),
+              "sensitivity": sens}
+    drawn = None
+    if samples is not None:
+        drawn = tolerances.sample_margin_db(margin_db, a, f, d, samples=samples, seed=seed)
+        record["monte_carlo"] = {"samples": int(samples), "seed": int(seed), "mean_db": float(drawn.mean()),
+                                 "std_db": float(drawn.std()), "p1_db": float(np.percentile(drawn, 1.0)),
+                                 "probability_meets_required": float(np.mean(drawn >= required_margin_db))}
+    return record, drawn
