@@ -5,6 +5,9 @@ The scenario is read, never modified.
 """
 from __future__ import annotations
 
+import dataclasses
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -14,7 +17,7 @@ from ..mission import demand as dm
 from ..mission import orbit as orb
 
 __all__ = ["ELEVATION_GRID_DEG", "DEFAULT_BIN_EDGES_DEG", "SECONDS_PER_DAY", "ContactPlan", "satrec_for", "site_table",
-           "contact_plan"]
+           "contact_plan", "CONTACT_PLAN_MEMO_SIZE", "clear_contact_plan_memo", "contact_plan_memo_stats"]
 
 #: Elevation bins of the histograms when the scenario gives none [deg].
 #: The elevation grid [deg] of the contact histograms and of the margin-vs-elevation evidence; it starts at
@@ -128,6 +131,50 @@ def site_table(sites) -> dict:
             "altitude_m": np.array([s.altitude_m for s in sites])}
 
 
+#: Contact plans kept per process (least recently used dropped first). The second stated exception to
+#: "no global state" beside the propagation memo of :mod:`tradeopt.physics.propagation`: the plan is a
+#: pure function of its key (:func:`_memo_key`), so the memo changes no answer, only the time.
+CONTACT_PLAN_MEMO_SIZE = 8
+_MEMO: OrderedDict = OrderedDict()
+_MEMO_LOCK = threading.Lock()
+_MEMO_STATS = {"hits": 0, "misses": 0}
+
+
+def _memo_key(scenario, days: float) -> tuple:
+    """Everything :func:`contact_plan` reads: the orbit (its form and every element), the contact window
+    (start, days, step, bin edges), and each site's id, position and mask, in the scenario's order.
+
+    Site names, ``required`` and ``cost_per_year`` are not read by the plan: the copy returned carries
+    the caller's own sites.
+    """
+    sites = tuple((s.id, float(s.latitude_deg), float(s.longitude_deg), float(s.altitude_m),
+                   float(s.min_elevation_deg)) for s in scenario.sites)
+    return (type(scenario.orbit).__name__, scenario.orbit, scenario.contacts, float(days), sites)
+
+
+def _fresh_copy(plan: ContactPlan, sites) -> ContactPlan:
+    """A copy of a memoized plan that its caller may modify without touching the memo."""
+    return dataclasses.replace(
+        plan, sites=tuple(sites), passes=plan.passes.copy(), stats=plan.stats.copy(),
+        network=plan.network.copy(), bin_edges_deg=list(plan.bin_edges_deg),
+        histogram_s_per_day=plan.histogram_s_per_day.copy(), geometry=dict(plan.geometry),
+        joint_elevation_deg=plan.joint_elevation_deg.copy(), joint_visible=plan.joint_visible.copy(),
+        joint_s_per_day=plan.joint_s_per_day.copy(), notes=list(plan.notes))
+
+
+def clear_contact_plan_memo() -> None:
+    """Forget every memoized contact plan (benchmarks and tests; never needed for correct answers)."""
+    with _MEMO_LOCK:
+        _MEMO.clear()
+        _MEMO_STATS.update(hits=0, misses=0)
+
+
+def contact_plan_memo_stats() -> dict:
+    """``{"hits": ..., "misses": ..., "size": ...}`` of the contact-plan memo since it was last cleared."""
+    with _MEMO_LOCK:
+        return {**_MEMO_STATS, "size": len(_MEMO)}
+
+
 def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
     """Propagate the orbit and summarise contacts for every site of the scenario.
 
@@ -135,6 +182,11 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
     propagated range at which the spacecraft crosses that site's mask (passes
     clipped by the window are left out). A geostationary slot gives a fixed
     elevation and range per site; a fixed range (deep space) gives no contacts.
+
+    Contact plans are memoized for the process (see :func:`_memo_key`): a second call with the
+    same orbit, contact window, days and site positions and masks returns a copy of the first
+    plan (with the caller's own sites), so a sweep's points that change none of these share one
+    propagation. A pure function of its key, so the memo changes no answer, only the time.
 
     Parameters
     ----------
@@ -152,12 +204,30 @@ def contact_plan(scenario, *, days: float | None = None) -> ContactPlan:
     InputError
         A fixed range, a circular orbit without inclination, or ``days`` outside 0.01 to 3660.
     """
-    import pandas as pd  # noqa: PLC0415
-
     days = float(days if days is not None else scenario.contacts.days)
     if not 0.01 <= days <= 3660.0:
         raise InputError(f"expected a number of days between 0.01 and 3660, got {days:g}", file=scenario.file,
                          where="option --days")
+    key = _memo_key(scenario, days)
+    with _MEMO_LOCK:
+        plan = _MEMO.get(key)
+        if plan is not None:
+            _MEMO.move_to_end(key)
+            _MEMO_STATS["hits"] += 1
+    if plan is None:
+        plan = _compute_contact_plan(scenario, days)
+        with _MEMO_LOCK:
+            _MEMO_STATS["misses"] += 1
+            _MEMO[key] = plan
+            while len(_MEMO) > CONTACT_PLAN_MEMO_SIZE:
+                _MEMO.popitem(last=False)
+    return _fresh_copy(plan, scenario.sites)
+
+
+def _compute_contact_plan(scenario, days: float) -> ContactPlan:
+    """The work of :func:`contact_plan` (``days`` already checked), never memoized."""
+    import pandas as pd  # noqa: PLC0415
+
     start = _start(scenario)
     sites = scenario.sites
     edges = list(scenario.contacts.elevation_bin_edges_deg or DEFAULT_BIN_EDGES_DEG)
