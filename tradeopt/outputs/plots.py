@@ -21,7 +21,7 @@ import time
 import warnings
 
 __all__ = ["trade_plots", "pareto_figure", "dish_curve_figure", "margin_figure", "attenuation_figure",
-           "BAND_STYLE", "tornado_figure", "margin_histogram_figure", "tolerance_plots"]
+           "BAND_STYLE", "tornado_figure", "margin_histogram_figure", "tolerance_plots", "tornado_figure_png"]
 
 #: Style per band letter: Okabe-Ito colour, marker and line style (colour is never the only cue).
 BAND_STYLE = {
@@ -511,3 +511,11 @@ def tolerance_plots(record: dict, margin_samples_db=None, *, software: str, titl
             out["margin_histogram.png"] = _png(margin_histogram_figure(margin_samples_db, record, title=title),
                                                software)
     return out
+
+
+def tornado_figure_png(record: dict, *, software: str, title: str = "") -> bytes:
+    """:func:`tornado_figure` as PNG bytes (the trade results' tornado of the best design)."""
+    from matplotlib import rc_context  # noqa: PLC0415
+
+    with rc_context(_RC):
+        return _png(tornado_figure(record, title=title), software)

@@ -256,6 +256,8 @@ def _toml(d: dict) -> str:
             return "true" if v else "false"
         if isinstance(v, str):
             return json.dumps(v)
+        if isinstance(v, dict):  # an inline table (a [tolerances] term)
+            return "{ " + ", ".join(f"{k} = {val(x)}" for k, x in v.items()) + " }"
         return repr(float(v)) if isinstance(v, float) else str(v)
 
     out = ["# The best design as a link file: 'tradeopt budget' on it gives the optimizer's numbers."]
@@ -263,6 +265,18 @@ def _toml(d: dict) -> str:
         out.append(f"\n[{table}]")
         out.extend(f"{k} = {val(v)}" for k, v in kv.items())
     return "\n".join(out) + "\n"
+
+
+def _tolerance_record(res: TradeResult) -> dict | None:
+    """best.json's ``margin_basis``, ``margin_statistics``, ``tolerances`` and ``sensitivity`` of the best design
+    at its limiting site (None without tolerances or without a best design)."""
+    sc = res.scenario
+    if not sc.tolerances or res.best is None:
+        return None
+    from ..trade.linkcalc import tolerance_analysis  # noqa: PLC0415
+
+    record, _ = tolerance_analysis(float(res.best.margin_db), sc.required_margin_db, sc.tolerances)
+    return {"margin_basis": sc.margin_basis, **record}
 
 
 def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
@@ -310,7 +324,14 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
         best_json["budget"] = budget_record(res.budget().to_dict())
         best_json["budgets_by_site"] = {site: budget_record(res.budget(site).to_dict())
                                         for site in sorted(res.budgets.columns)}
-        files["best_link.toml"] = _toml(res.best_link)
+        link = res.best_link
+        if res.scenario.tolerances:  # the scenario's design control table, so that 'tradeopt budget' shows it too
+            link = {**link, "tolerances": {t.term: {"adverse_db": t.adverse_db, "favorable_db": t.favorable_db,
+                                                    "distribution": t.distribution} for t in res.scenario.tolerances}}
+        files["best_link.toml"] = _toml(link)
+    tolerance_record = _tolerance_record(res)
+    if tolerance_record is not None:
+        best_json.update(tolerance_record)
     files["best.json"] = json.dumps(clean_for_json(best_json), indent=2, sort_keys=True) + "\n"
     text = summary_text(res, results_dir)
     files["summary.txt"] = text + "\n\ncautions:\n" + "\n".join(f"  - {c}" for c in CAUTIONS) + "\n"
@@ -318,6 +339,13 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
         from .plots import trade_plots  # noqa: PLC0415
 
         files.update(trade_plots(res, software=vline))
+        if tolerance_record is not None:
+            from .plots import tornado_figure_png  # noqa: PLC0415
+
+            record = dict(tolerance_record, required_margin_db=res.scenario.required_margin_db)
+            files["tornado.png"] = tornado_figure_png(record, software=vline, title=(
+                f"{res.scenario.name}: best design, margin {tolerance_record['margin_statistics']['nominal_db']:.2f}"
+                " dB nominal"))
     if plots if report is None else report:
         from .report_html import REPORT_NAME, report_html  # noqa: PLC0415
 

@@ -52,10 +52,12 @@ class Context:
     margin_basis: str = "nominal"
     margin_offset_db: float = 0.0
 
-    @property
-    def basis_words(self) -> str:
-        """The statistic's name before "margin" in a sentence ("" for the nominal margin)."""
-        return "" if self.margin_basis == "nominal" else f"{self.margin_basis} "
+    def qualify(self, text: str, constraint: Constraint) -> str:
+        """A sentence of ``constraint`` with its statistic named after the constraint's name when it reads an
+        offset quantity on a basis other than the nominal one ("margin (mean-2sigma) 1.20 dB is ...")."""
+        if constraint.offset is None or self.margin_basis == "nominal":
+            return text
+        return text.replace(constraint.name, f"{constraint.name} ({self.margin_basis})", 1)
 
 
 @dataclass(frozen=True)
@@ -131,8 +133,8 @@ CONSTRAINTS: tuple[Constraint, ...] = (
                "occupied bandwidth {value} MHz exceeds the {limit} MHz {where} by {excess} MHz",
                "bandwidth over by {excess} MHz", 1),
     Constraint(2, "margin", "margin_db", "required_margin_db", False, 1e-12, False, "dB", 1.0, "%.2f",
-               "{basis}margin {value} dB is {excess} dB short of the {limit} dB {where}",
-               "{basis}margin short by {excess} dB", 0, offset="margin_offset_db"),
+               "margin {value} dB is {excess} dB short of the {limit} dB {where}",
+               "margin short by {excess} dB", 0, offset="margin_offset_db"),
     Constraint(3, "pfd", "pfd_excess_db", 0.0, True, 0.0, True, "dB", 1.0, "%.2f",
                "power-flux density exceeds the Radio Regulations Article 21 limit by {excess} dB{where}",
                "pfd over the limit by {excess} dB", 2),
@@ -213,7 +215,7 @@ def reason_texts(codes, values: dict, amounts, ctx: Context, limiting_site=None)
             where = [f"required at {s}" for s in sites]
         else:
             where = [c.where(ctx)] * idx.size
-        out[idx] = [c.reason.format(value=c.fmt % v, limit=limit, excess=c.fmt % e, where=w, basis=ctx.basis_words)
+        out[idx] = [ctx.qualify(c.reason.format(value=c.fmt % v, limit=limit, excess=c.fmt % e, where=w), c)
                     for v, e, w in zip(value, amount, where)]
     return out
 
@@ -224,7 +226,7 @@ def miss_texts(values: dict, ctx: Context, limiting_site: str | None = None) -> 
     for c in _table():
         amount = float(excess(c, values, ctx))
         if amount > c.tolerance:
-            text = c.miss.format(excess=c.fmt % (amount / c.scale), basis=ctx.basis_words)
+            text = ctx.qualify(c.miss.format(excess=c.fmt % (amount / c.scale)), c)
             if c.name == "margin" and limiting_site is not None:
                 text += f" at {limiting_site}"
             parts.append(text)
