@@ -264,3 +264,15 @@ def test_two_local_workers_give_the_same_rows_as_this_process(geo, tmp_path):
     assert done.returncode == 0, done.stderr[-2000:]
     there = json.loads(done.stdout.strip().splitlines()[-1])
     assert there == json.loads(json.dumps([dataclasses.asdict(r) for r in here.rows]))
+
+
+@pytest.mark.slow
+def test_a_point_whose_plan_cannot_be_made_is_a_row_with_its_reason(geo):
+    # Catches: one point's input problem (a mask above the slot's elevation, found only when the plan is
+    # made) aborting the whole sweep and losing the other points, or turning into NaN cells.
+    setup = _setup(geo, ["sites.thistlewick-mesa.min_elevation_deg=10:80:2"])
+    res = sweep(setup)
+    ok, bad = res.rows
+    assert ok.feasible and ok.band_id is not None
+    assert not bad.feasible and bad.status == "INPUT_ERROR" and bad.band_id is None
+    assert "below its 80 deg mask" in bad.reason and "\n" not in bad.reason
