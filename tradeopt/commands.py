@@ -10,7 +10,7 @@ from pathlib import Path
 from .outputs.records import contacts_record, demand_record  # noqa: F401  (light; re-exported here)
 
 __all__ = ["run_optimize", "run_report", "run_contacts", "run_demand", "run_new", "contacts_record", "demand_record",
-           "progress_enabled", "stages"]
+           "progress_enabled", "stages", "piece_progress", "default_out"]
 
 
 def progress_enabled(quiet: bool = False) -> bool:
@@ -62,6 +62,35 @@ def stages(total: int, *, enabled: bool):
         shown = _Stages(progress, task)
         yield shown
         progress.update(task, completed=total, refresh=True)
+
+
+@contextlib.contextmanager
+def piece_progress(total: int | None, *, enabled: bool, description: str):
+    """A transient rich bar over the pieces of a study on stderr; yields ``on_done(done, total)`` or None.
+
+    Used by ``simulate`` and ``sweep`` (the callback of :func:`tradeopt.study.cluster.run_pieces`).
+    """
+    if not enabled:
+        yield None
+        return
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
+
+    console = Console(file=sys.stderr, force_terminal=True)
+    with Progress(SpinnerColumn(), TextColumn("tradeopt: {task.description}"), BarColumn(), MofNCompleteColumn(),
+                  TimeElapsedColumn(), console=console, transient=True, redirect_stdout=False,
+                  redirect_stderr=False) as progress:
+        task = progress.add_task(description, total=total)
+
+        def on_done(done: int, total_now: int) -> None:
+            progress.update(task, completed=done, total=total_now, refresh=True)
+
+        yield on_done
+
+
+def default_out(name: str) -> Path:
+    """``results/<name>`` with the name made safe for a folder."""
+    return _default_out(name)
 
 
 def _default_out(name: str) -> Path:

@@ -4,7 +4,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from .commands import _default_out, _scenario_inputs, progress_enabled
+from .commands import _scenario_inputs, default_out, piece_progress, progress_enabled
 
 __all__ = ["run_simulate"]
 
@@ -28,29 +28,14 @@ def run_simulate(*, scenario_path=None, years=1, seed=0, step_s=1.0, band_id=Non
         check_out_dir(out_dir, inputs=[scenario_path])
     scenario = load_scenario(scenario_path)
     check_simulation_args(scenario, years=years, seed=seed, step_s=step_s, band_id=band_id)
-    target = Path(out_dir) if out_dir is not None else Path(str(_default_out(scenario.name)) + "-simulation")
+    target = Path(out_dir) if out_dir is not None else Path(str(default_out(scenario.name)) + "-simulation")
     inputs = _scenario_inputs(scenario_path, scenario)
     check_out_dir(target, inputs=inputs)
-    show = progress_enabled(quiet)
-    if show:
-        import sys
-
-        from rich.console import Console
-        from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
-
-        progress = Progress(TextColumn("tradeopt: {task.description}"), BarColumn(), MofNCompleteColumn(),
-                            TimeElapsedColumn(), console=Console(file=sys.stderr, force_terminal=True),
-                            transient=True)
-        with progress:
-            task = progress.add_task("trade, then (site, year) pieces of weather", total=None)
-
-            def on_done(done, total):
-                progress.update(task, completed=done, total=total, refresh=True)
-
-            res = simulate(scenario, years=years, seed=seed, step_s=float(step_s), band_id=band_id,
-                           execution=execution, on_done=on_done)
-    else:
-        res = simulate(scenario, years=years, seed=seed, step_s=float(step_s), band_id=band_id, execution=execution)
+    where = execution.label
+    with piece_progress(None, enabled=progress_enabled(quiet),
+                        description=f"trade, then (site, year) pieces of weather ({where})") as on_done:
+        res = simulate(scenario, years=years, seed=seed, step_s=float(step_s), band_id=band_id, execution=execution,
+                       on_done=on_done)
     files = build_simulation_files(res, str(target))
     write_results(target, files, inputs=inputs)
     if as_json:

@@ -1,52 +1,18 @@
 """``tradeopt sweep``: the work behind the command (the CLI parses; this runs and prints)."""
 from __future__ import annotations
 
-import contextlib
 import dataclasses
 import json
-import re
-import sys
 from pathlib import Path
+
+from .commands import default_out, piece_progress, progress_enabled
 
 __all__ = ["run_sweep", "default_sweep_dir"]
 
 
 def default_sweep_dir(name: str) -> Path:
     """``results/<scenario name>-sweep`` (the name made safe for a folder, as ``tradeopt optimize`` does)."""
-    safe = re.sub(r"[^A-Za-z0-9_.-]+", "-", name).strip("-") or "scenario"
-    return Path("results") / f"{safe}-sweep"
-
-
-def _progress_enabled(quiet: bool) -> bool:
-    """Progress on stderr only when it is a terminal, never with ``--quiet`` (as ``tradeopt optimize``)."""
-    if quiet:
-        return False
-    isatty = getattr(sys.stderr, "isatty", None)
-    try:
-        return bool(isatty and isatty())
-    except (ValueError, OSError):
-        return False
-
-
-@contextlib.contextmanager
-def _point_progress(total: int, *, enabled: bool, where: str):
-    """A transient rich bar over the points on stderr; yields ``on_done(done, total)`` (None when not shown)."""
-    if not enabled:
-        yield None
-        return
-    from rich.console import Console
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, SpinnerColumn, TextColumn, TimeElapsedColumn
-
-    console = Console(file=sys.stderr, force_terminal=True)
-    with Progress(SpinnerColumn(), TextColumn("tradeopt: {task.description}"), BarColumn(), MofNCompleteColumn(),
-                  TimeElapsedColumn(), console=console, transient=True, redirect_stdout=False,
-                  redirect_stderr=False) as progress:
-        task = progress.add_task(f"sweep points ({where})", total=total)
-
-        def on_done(done: int, _total: int) -> None:
-            progress.update(task, completed=done, refresh=True)
-
-        yield on_done
+    return Path(str(default_out(name)) + "-sweep")
 
 
 def run_sweep(*, scenario_path=None, vary=(), objective=None, workers=None, scheduler=None, out_dir=None,
@@ -89,8 +55,9 @@ def run_sweep(*, scenario_path=None, vary=(), objective=None, workers=None, sche
     inputs = [scenario_path, getattr(first.catalog, "directory", None),
               *(p.compression_sample_file for p in first.payloads)]
     check_out_dir(target, inputs=inputs)
+    label = f"sweep points ({options.label})"
     with study_client(options) as client, \
-            _point_progress(len(points), enabled=_progress_enabled(quiet), where=options.label) as on_done:
+            piece_progress(len(points), enabled=progress_enabled(quiet), description=label) as on_done:
         res = sweep(setup, client=client, on_done=on_done, notes=notes)
     files = build_sweep_files(res, str(target))
     write_results(target, files, inputs=inputs)

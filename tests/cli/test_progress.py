@@ -134,3 +134,17 @@ def test_an_error_on_a_terminal_is_still_one_line_after_the_progress(tmp_path, m
     last = re.split(r"[\r\n]", shown.rstrip("\n"))[-1]
     assert last.startswith("tradeopt optimize: ") and "Q-DOWN" in last
     assert shown.count("tradeopt optimize: ") == 1
+
+
+def test_simulate_progress_on_a_terminal_counts_the_pieces(tmp_path, monkeypatch, capsys):
+    # Catches: the weather simulation (the longest command) running silently on a terminal, or its
+    # progress reaching the JSON on stdout.
+    from pathlib import Path
+
+    geo = Path(__file__).resolve().parents[2] / "examples" / "geostationary_link.toml"
+    terminal = _fake_terminal(monkeypatch)
+    assert main(["simulate", str(geo), "--step-s", "60", "--out", str(tmp_path / "sim"), "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["years"] == 1
+    shown = terminal.getvalue()
+    assert "tradeopt: trade, then (site, year) pieces of weather (this process)" in shown
+    assert "1/1" in shown

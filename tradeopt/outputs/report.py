@@ -18,7 +18,7 @@ from ..trade.result import KNEE_FRACTION, Design, TradeResult, TradeStatus
 from .provenance import CSV_FLOAT_FORMAT, clean_for_json, versions
 from .tables import budget_record
 
-__all__ = ["build_files", "summary_dict", "summary_text", "scenario_record", "CAUTIONS"]
+__all__ = ["build_files", "summary_dict", "summary_text", "scenario_record", "CAUTIONS", "csv_text", "version_line"]
 
 CAUTIONS = [
     "Design-stage estimates only: confirm with detailed analysis and measurement before commitment.",
@@ -37,7 +37,14 @@ def _object_float(v):
     return v
 
 
-def _csv(df, header_line: str) -> str:
+def csv_text(df, header_line: str) -> str:
+    """A DataFrame as the house CSV: a ``# versions`` first line, floats to 10 significant digits, no NaN.
+
+    Raises
+    ------
+    ValueError
+        A NaN or infinite value (which must never reach an output).
+    """
     numeric = df.select_dtypes(include="number")
     if not np.isfinite(numeric.to_numpy(dtype=float)).all():
         raise ValueError("a NaN or infinite value reached a CSV output")
@@ -54,7 +61,8 @@ def _csv(df, header_line: str) -> str:
     return buf.getvalue()
 
 
-def _version_line(ver: dict) -> str:
+def version_line(ver: dict) -> str:
+    """The first line of every CSV: tradeopt, itur and Recommendation versions."""
     recs = " ".join(ver["recommendations"].values())
     return f"tradeopt {ver['tradeopt']} | itur {ver['itur']} | {recs}"
 
@@ -287,29 +295,29 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
     (:mod:`tradeopt.outputs.report_html`), so that ``tradeopt report`` re-renders the same bytes.
     """
     ver = versions()
-    vline = _version_line(ver)
+    vline = version_line(ver)
     files: dict[str, str | bytes] = {}
     if res.designs is not None:
-        files["designs.csv"] = _csv(res.designs, vline)
-    files["pareto.csv"] = _csv(res.pareto, vline)
-    files["bands.csv"] = _csv(res.bands, vline)
+        files["designs.csv"] = csv_text(res.designs, vline)
+    files["pareto.csv"] = csv_text(res.pareto, vline)
+    files["bands.csv"] = csv_text(res.bands, vline)
     if not res.dish_curve.empty:
-        files["dish_curve.csv"] = _csv(res.dish_curve, vline)
-        files["dish_sizing.csv"] = _csv(res.dish_sizing, vline)
-        files["power_sizing.csv"] = _csv(res.power_sizing, vline)
+        files["dish_curve.csv"] = csv_text(res.dish_curve, vline)
+        files["dish_sizing.csv"] = csv_text(res.dish_sizing, vline)
+        files["power_sizing.csv"] = csv_text(res.power_sizing, vline)
     if not res.attenuation.empty:
-        files["attenuation.csv"] = _csv(res.attenuation, vline)
+        files["attenuation.csv"] = csv_text(res.attenuation, vline)
     if res.volume is not None:
-        files["volume.csv"] = _csv(res.volume, vline)
+        files["volume.csv"] = csv_text(res.volume, vline)
     if res.mission is not None and res.mission.contacts is not None:
         from .records import contacts_record  # noqa: PLC0415
 
         files["contacts.json"] = json.dumps(clean_for_json(contacts_record(res.scenario, res.mission.contacts)),
                                             indent=2, sort_keys=True) + "\n"
     if res.mission is not None and res.mission.demand is not None:
-        files["demand.csv"] = _csv(res.mission.demand.result.table, vline)
+        files["demand.csv"] = csv_text(res.mission.demand.result.table, vline)
     if not res.margin_vs_elevation.empty:
-        files["margin_vs_elevation.csv"] = _csv(res.margin_vs_elevation, vline)
+        files["margin_vs_elevation.csv"] = csv_text(res.margin_vs_elevation, vline)
 
     summary = summary_dict(res, results_dir)
     best_json = {"scenario": res.scenario.name, "scenario_file": res.scenario.file, "objective": res.objective,

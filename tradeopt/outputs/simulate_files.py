@@ -12,7 +12,7 @@ import json
 import numpy as np
 
 from .provenance import clean_for_json, versions
-from .report import CAUTIONS, _csv, _version_line
+from .report import CAUTIONS, csv_text, version_line
 
 __all__ = ["simulation_record", "simulation_text", "build_simulation_files", "simulation_plots"]
 
@@ -231,17 +231,17 @@ def simulation_plots(res, *, software: str) -> dict[str, bytes]:
 def build_simulation_files(res, folder: str, *, plots: bool = True) -> dict[str, str | bytes]:
     """Every file of a simulation's results folder, in memory (name -> content)."""
     ver = versions()
-    vline = _version_line(ver)
+    vline = version_line(ver)
     rec = _json_ready(simulation_record(res))
     files: dict[str, str | bytes] = {"simulation.json": json.dumps(rec, indent=2, sort_keys=True) + "\n"}
     daily = res.daily.copy()
-    files["daily.csv"] = _csv(daily, vline)
-    files["sites.csv"] = _csv(res.sites, vline)
-    files["attenuation_exceedance.csv"] = _csv(res.exceedance, vline)
-    files["diversity.csv"] = _csv(res.diversity, vline)
+    files["daily.csv"] = csv_text(daily, vline)
+    files["sites.csv"] = csv_text(res.sites, vline)
+    files["attenuation_exceedance.csv"] = csv_text(res.exceedance, vline)
+    files["diversity.csv"] = csv_text(res.diversity, vline)
     hourly = res.store_hourly
-    files["store_hourly.csv"] = _csv(hourly, vline)
-    files["margin_day.csv"] = _csv(res.margin_day, vline)
+    files["store_hourly.csv"] = csv_text(hourly, vline)
+    files["margin_day.csv"] = csv_text(res.margin_day, vline)
     files["summary.txt"] = (simulation_text(res, folder) + "\n\ncautions:\n"
                             + "\n".join(f"  - {c}" for c in CAUTIONS) + "\n")
     if plots:

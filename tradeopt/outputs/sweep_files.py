@@ -14,7 +14,7 @@ import math
 
 from .plots import BAND_STYLE
 from .provenance import clean_for_json, versions
-from .report import CAUTIONS, _csv, _version_line
+from .report import CAUTIONS, csv_text, version_line
 
 __all__ = ["sweep_record", "sweep_text", "build_sweep_files", "sweep_figure", "OBJECTIVE_LABEL"]
 
@@ -236,9 +236,9 @@ def sweep_figure(res):
 def build_sweep_files(res, folder: str, *, plots: bool = True) -> dict[str, str | bytes]:
     """Every file of a sweep's results folder, in memory (name -> content); the same bytes for the same result."""
     rec = sweep_record(res)
-    vline = _version_line(rec["versions"])
+    vline = version_line(rec["versions"])
     files: dict[str, str | bytes] = {
-        "sweep.csv": _csv(res.frame(), vline),
+        "sweep.csv": csv_text(res.frame(), vline),
         "sweep.json": json.dumps(clean_for_json(rec), indent=2, sort_keys=True) + "\n",
         "summary.txt": (sweep_text(res, folder) + "\n\ncautions:\n" + "\n".join(f"  - {c}" for c in CAUTIONS)
                         + "\n"),

@@ -363,6 +363,13 @@ def with_network_choice(scenario, plan: MissionPlan, rate_bps_by_site: dict) -> 
     return dataclasses.replace(plan, network=choice)
 
 
+#: Worst gaps over the long gap window, kept per process (oldest dropped first): a pure function of
+#: the orbit, the window start, its days and step, and the required sites' positions and masks (the
+#: key), like the contact-plan memo of :mod:`tradeopt.plan.contacts`; sweeps reuse it between points.
+_GAP_MEMO: dict = {}
+_GAP_MEMO_SIZE = 8
+
+
 def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
     """Worst gap [s] of the required sites (union) for the storage check, the window it came from, and a
     TLE-age warning for that window (None when not needed).
@@ -392,7 +399,15 @@ def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
         step = max(step, orb.GAP_WINDOW_STEP_S)
         sub = {k: v[req_idx] for k, v in site_table(plan.sites).items()}
         masks = [plan.sites[i].min_elevation_deg for i in req_idx]
-        worst_gap = max(worst_gap, orb.network_worst_gap_s(sat, plan.start_utc, days, sub, masks, step_s=step))
+        key = (type(scenario.orbit).__name__, scenario.orbit, str(plan.start_utc), float(days), float(step),
+               tuple(tuple(float(x) for x in v) for v in sub.values()), tuple(float(m) for m in masks))
+        gap = _GAP_MEMO.get(key)
+        if gap is None:
+            gap = float(orb.network_worst_gap_s(sat, plan.start_utc, days, sub, masks, step_s=step))
+            _GAP_MEMO[key] = gap
+            while len(_GAP_MEMO) > _GAP_MEMO_SIZE:
+                _GAP_MEMO.pop(next(iter(_GAP_MEMO)))
+        worst_gap = max(worst_gap, gap)
         if scenario.orbit_kind == "tle":
             warning = orb.tle_age_warning(sat, plan.start_utc, days)
         basis = f"{rule}; gap only, {step:g} s step"

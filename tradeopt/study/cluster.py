@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import contextlib
 import logging
+import uuid
 from collections.abc import Callable, Iterator, Sequence
 from typing import Any
 
@@ -178,7 +179,8 @@ def run_pieces(function: Callable[..., Any], pieces: Sequence[Any], *, client: A
     from distributed import as_completed  # noqa: PLC0415
 
     shared_future = client.scatter(shared, broadcast=True) if shared is not None else None
-    futures = [client.submit(function, piece, shared_future, pure=False, key=f"tradeopt-piece-{k}-{id(pieces)}")
+    run = uuid.uuid4().hex
+    futures = [client.submit(function, piece, shared_future, pure=False, key=f"tradeopt-piece-{k}-{run}")
                for k, piece in enumerate(pieces)]
     index = {f.key: k for k, f in enumerate(futures)}
     results: list[Any] = [None] * total

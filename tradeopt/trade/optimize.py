@@ -398,7 +398,8 @@ def _volume_analysis(scenario, res: TradeWork, best: dict) -> dict:
     roll = space.modcods["rolloff"].to_numpy(float)
     bw_cap = space.available_bandwidth_hz * info / (1.0 + roll)
     rate = space.rate_bps
-    req_margin = scenario.required_margin_db
+    # the required margin applies to the scenario's margin basis (nominal unless tolerances say otherwise)
+    req_margin = scenario.required_margin_db - space.margin_offset_db
     c_design = best["c"]
     el_state = np.asarray(plan.joint_elevation_deg, dtype=float)
     vis_state = np.asarray(plan.joint_visible, dtype=bool)
