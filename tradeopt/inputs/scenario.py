@@ -58,6 +58,8 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
         Field("direction", "choice", choices=("downlink",), required=False, default="downlink"),
         Field("availability_percent", unit="%", low=0.0, high=100.0, low_open=True, high_open=True),
         Field("required_margin_db", unit="dB", low=-10.0, high=30.0),
+        # the margin statistic the required margin applies to (the statistics of the [tolerances] table)
+        Field("margin_basis", "choice", choices=MARGIN_BASES, required=False, default="nominal"),
         Field("bands", "str_list"),
         Field("catalogs", "str", required=False),
     ],
@@ -154,9 +156,6 @@ _PAYLOAD_FIELDS = [
     Field("compression_codec", "choice", choices=("zlib", "bz2", "lzma", "best"), required=False, default="best"),
 ]
 _TOP = list(SCENARIO_SCHEMA) + ["sites", "bandwidth_limits_hz", "payloads", "tolerances"]
-#: ``[scenario] margin_basis``: the margin statistic the required margin applies to (read apart from
-#: :data:`SCENARIO_SCHEMA`, like the site and payload fields).
-_MARGIN_BASIS_FIELD = Field("margin_basis", "choice", choices=MARGIN_BASES, required=False, default="nominal")
 
 
 @dataclass(frozen=True)
@@ -247,7 +246,6 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
     check_known(data.keys(), _TOP, file=file, where="top level", what="table")
     if "scenario" not in data:
         raise InputError("missing table [scenario]", file=file, where="table [scenario]")
-    data, margin_basis = _margin_basis(data, file)
     sc, orbit_v, req_v, link, craft, opts_v = (_read(data, n, file) for n in
                                                ("scenario", "orbit", "requirement", "link", "spacecraft", "options"))
     _check_availability(sc["availability_percent"], file)
@@ -282,17 +280,7 @@ def scenario_from_dict(data: dict, *, file: str = DEFAULT_SCENARIO_NAME, base_di
         max_comm_mass_kg=craft["max_comm_mass_kg"], max_dc_power_w=craft["max_dc_power_w"],
         power_mass_kg_per_w=craft["power_mass_kg_per_w"],
         dish_curve_max_diameter_m=opts_v["dish_curve_max_diameter_m"], dish_curve_step_m=opts_v["dish_curve_step_m"],
-        base_dir=base_dir, file=file, notes=notes, tolerances=tolerances, margin_basis=margin_basis)
-
-
-def _margin_basis(data: dict, file: str) -> tuple[dict, str]:
-    """``[scenario] margin_basis`` (default ``"nominal"``), and the data without it for the table's other keys."""
-    sc = data["scenario"]
-    if not isinstance(sc, dict) or "margin_basis" not in sc:
-        return data, "nominal"
-    basis = convert(sc["margin_basis"], _MARGIN_BASIS_FIELD, file=file, where="key [scenario] margin_basis",
-                    typed=True)
-    return {**data, "scenario": {k: v for k, v in sc.items() if k != "margin_basis"}}, str(basis)
+        base_dir=base_dir, file=file, notes=notes, tolerances=tolerances, margin_basis=sc["margin_basis"])
 
 
 def _written(data: dict, name: str) -> set:

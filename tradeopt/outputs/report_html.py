@@ -3,7 +3,10 @@
 The page is rendered from the files of a results folder (``best.json``, the CSV tables,
 ``contacts.json``), never from the live trade, so ``tradeopt report RESULTS_DIR`` re-renders an
 archived folder to the same bytes that ``tradeopt optimize`` wrote. It tells the trade in ten
-sections, from the question to the recommendation and its evidence.
+sections, from the question to the recommendation and its evidence. When best.json has tolerances,
+section 7 adds how sure the margin is (the margin basis, the statistics, the toleranced terms, the
+sensitivity and a tornado) and the verdict says which statistic the required margin applies to;
+without them the page is as before.
 
 Form: Jinja2 with autoescaping (every text from the scenario is shown as text); CSS inline;
 figures inline as SVG (text drawn as paths, a salt per figure for unique, reproducible ids, no
@@ -23,6 +26,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from types import SimpleNamespace
 
+from ..physics.tolerances import MARGIN_BASES, MARGIN_STATISTIC_KEYS
 from ..trade.result import Design, MassBreakdown, TradeResult, TradeStatus
 from .report import CAUTIONS
 
@@ -127,6 +131,29 @@ _REASON_HEADINGS = {"bandwidth": "bandwidth", "margin": "margin", "pfd": "power-
 #: Okabe-Ito colours, markers and hatches per band letter (colour is never the only cue).
 _BAND_LOOK = {"S": ("#009E73", "o", "//"), "X": ("#0072B2", "s", ".."), "Ka": ("#D55E00", "^", "xx")}
 _OTHER_LOOK = ("#555555", "D", "--")
+
+#: What each margin basis means (``[scenario] margin_basis``: the statistic the required margin applies to).
+_BASIS_MEANING = {
+    "nominal": "the required margin applies to the design-value margin, every toleranced term at its design "
+               "value: the search did not use the tolerances, which are shown here for information only.",
+    "mean-2sigma": "the required margin applies to the mean margin less two standard deviations of the "
+                   "toleranced terms' combined spread (for a Gaussian spread, about 97.7 % of cases lie above it).",
+    "mean-3sigma": "the required margin applies to the mean margin less three standard deviations of the "
+                   "toleranced terms' combined spread (for a Gaussian spread, about 99.87 % of cases lie above it).",
+    "adverse": "the required margin applies to the margin with every toleranced term at its adverse end at once "
+               "(the worst case, the most conservative basis).",
+}
+#: Rows of the margin-statistics table: (best.json ``margin_statistics`` key, label); order of
+#: :data:`tradeopt.physics.tolerances.MARGIN_STATISTIC_KEYS`.
+_STATISTIC_LABELS = {
+    "nominal_db": "nominal (every term at its design value)",
+    "mean_db": "mean",
+    "sigma_db": "sigma (standard deviation of the spread)",
+    "mean_minus_2sigma_db": "mean \u2212 2 sigma",
+    "mean_minus_3sigma_db": "mean \u2212 3 sigma",
+    "adverse_db": "adverse (every term at its adverse end)",
+    "favorable_db": "favourable (every term at its favourable end)",
+}
 _RC = {"font.size": 9, "svg.fonttype": "path", "figure.dpi": 96}
 
 
@@ -749,6 +776,62 @@ def _budget(best: dict) -> dict:
     return {"sites": sites, "rows": rows, "assumptions": notes}
 
 
+def _tolerances(best: dict) -> dict | None:
+    """"How sure is the margin": best.json's ``margin_basis``, ``margin_statistics``, ``tolerances`` and
+    ``sensitivity`` for the page, or None when best.json has no tolerances (the section is then left out)."""
+    terms = best.get("tolerances")
+    stats = best.get("margin_statistics")
+    if not terms or not stats:
+        return None
+    basis = best.get("margin_basis") or "nominal"
+    basis_key = MARGIN_BASES.get(basis)
+    required = (best.get("inputs") or {}).get("required_margin_db")
+    rows = []
+    for key in MARGIN_STATISTIC_KEYS:
+        if key not in stats:
+            continue
+        over = "\u2013" if key == "sigma_db" or _blank(required) else _f(stats[key] - required, 2)
+        rows.append({"key": key, "label": _STATISTIC_LABELS.get(key, key), "value": _f(stats[key], 2),
+                     "over": over, "basis": key == basis_key})
+    tolerances = [{"term": t["term"], "adverse": _f(t["adverse_db"], 2), "favorable": _f(t["favorable_db"], 2),
+                   "distribution": t["distribution"], "mean": _f(t.get("mean_db"), 3),
+                   "variance": _f(t.get("variance_db2"), 4)} for t in terms]
+    sensitivity = [{"term": r["term"], "adverse": _f(r["adverse_margin_db"], 2),
+                    "favorable": _f(r["favorable_margin_db"], 2), "swing": _f(r["swing_db"], 2)}
+                   for r in best.get("sensitivity") or []]
+    statement = None
+    if basis != "nominal" and basis_key in stats:
+        statement = (f"The required margin of {required:g} dB applies to the margin's {basis} value "
+                     f"({_f(stats[basis_key], 2)} dB for the recommended design; nominal {_f(stats['nominal_db'], 2)} dB)"
+                     if not _blank(required) else
+                     f"The required margin applies to the margin's {basis} value ({_f(stats[basis_key], 2)} dB for "
+                     f"the recommended design; nominal {_f(stats['nominal_db'], 2)} dB)")
+        statement += ", not to the nominal margin the budget tables show."
+    return {"basis": basis, "meaning": _BASIS_MEANING.get(basis, "a margin statistic this version does not describe."),
+            "statistics": rows, "terms": tolerances, "sensitivity": sensitivity, "statement": statement,
+            "limiting": (best.get("best") or {}).get("limiting_site", "")}
+
+
+def _tornado_svg(best: dict, tolerances: dict | None) -> str | None:
+    """The tornado of :func:`tradeopt.outputs.plots.tornado_figure` from best.json's ``sensitivity``, as inline
+    SVG (the figure of tornado.png, with the required margin), or None without tolerances."""
+    if tolerances is None or not best.get("sensitivity"):
+        return None
+    from matplotlib import rc_context  # noqa: PLC0415
+
+    from .plots import tornado_figure  # noqa: PLC0415
+
+    stats = best["margin_statistics"]
+    record = {"sensitivity": best["sensitivity"], "margin_statistics": stats,
+              "required_margin_db": (best.get("inputs") or {}).get("required_margin_db")}
+    title = f"{best.get('scenario', '')}: best design, margin {stats['nominal_db']:.2f} dB nominal"
+    alt = ("Horizontal bars, one per toleranced term, the largest swing at the top: the margin with that term at "
+           "its adverse end (hatched, left) and at its favourable end (right), every other term at its design "
+           "value; vertical lines at the nominal and the required margin.")
+    with rc_context({**_RC, "svg.hashsalt": "tradeopt-report-tornado"}):
+        return _svg(tornado_figure(record, title=title), "tradeopt-report-tornado", alt)
+
+
 def _volume(best: dict, tables: dict) -> dict:
     m = best.get("mission") or {}
     out: dict = {"volume": None, "sites": [], "storage": None, "storage_ok": False, "network": None, "union": None}
@@ -822,6 +905,10 @@ def _context(files: Mapping[str, str | bytes]) -> dict:
                "MISSION_UNMET": "A design closes, but the mission does not fit.",
                "INFEASIBLE": "No design keeps every constraint."}.get(status, status)
     notes = best.get("notes", [])
+    tolerances = _tolerances(best)
+    figures = _figures(view, tables, inputs)
+    figures["tornado"] = _tornado_svg(best, tolerances)
+    shift = 0 if figures["tornado"] is None else 1  # the tornado is figure 4 when there is one
     return {
         "name": best.get("scenario", ""), "status": status, "verdict": verdict, "message": best.get("message", ""),
         "sections": SECTION_TITLES, "question": _question(best, inputs), "demand": _demand(tables, contacts, best),
@@ -829,7 +916,8 @@ def _context(files: Mapping[str, str | bytes]) -> dict:
         "space": _space(best, tables), "budget": _budget(best), "volume": _volume(best, tables),
         "warnings": [n for n in notes if n.startswith("WARNING")], "notes": [n for n in notes if not n.startswith("WARNING")],
         "cautions": best.get("cautions") or CAUTIONS, "sources": _sources(best),
-        "figures": _figures(view, tables, inputs), "has_designs": tables.get("designs") is not None,
+        "figures": figures, "has_designs": tables.get("designs") is not None, "tol": tolerances,
+        "figure_numbers": {"tornado": 4, "margin": 4 + shift, "attenuation": 5 + shift},
         "required_margin": f"{inputs['required_margin_db']:g}" if "required_margin_db" in inputs else "?",
     }
 
