@@ -14,7 +14,7 @@ from importlib import resources
 import pytest
 
 from tradeopt.cli import main
-from tradeopt.inputs.scenario import _PAYLOAD_FIELDS, _SITE_FIELDS, SCENARIO_SCHEMA, load_scenario
+from tradeopt.inputs.scenario import _PAYLOAD_FIELDS, SITE_FIELDS, SCENARIO_SCHEMA, load_scenario
 
 DEFAULT_TEXT = resources.files("tradeopt.data").joinpath("default_scenario.toml").read_text(encoding="utf-8")
 SAMPLE = resources.files("tradeopt.data").joinpath("imager_sample.bin").read_bytes()
@@ -83,7 +83,7 @@ def test_every_scenario_key_is_mentioned(tmp_path, capsys):
     assert run(capsys, "new", str(target))[0] == 0
     text = target.read_text(encoding="utf-8")
     names = [f.name for fields in SCENARIO_SCHEMA.values() for f in fields]
-    names += [f.name for f in _SITE_FIELDS] + [f.name for f in _PAYLOAD_FIELDS]
+    names += [f.name for f in SITE_FIELDS] + [f.name for f in _PAYLOAD_FIELDS]
     missing = [n for n in names if not re.search(rf"\b{n}\b", text)]
     assert missing == []
     for table in SCENARIO_SCHEMA:

@@ -131,7 +131,8 @@ SCENARIO_SCHEMA: dict[str, list[Field]] = {
         Field("dish_curve_step_m", unit="m", required=False, default=0.25, low=0.01, high=10.0),
     ],
 }
-_SITE_FIELDS = [
+#: The keys of a ``[[sites]]`` table (id, name, position, mask, required, cost), read by the scenario and by sweeps.
+SITE_FIELDS = [
     Field("id", "str"),
     Field("name", "str", required=False),
     Field("latitude_deg", unit="deg", low=-90.0, high=90.0),
@@ -358,7 +359,7 @@ def _sites(data: dict, file: str) -> list[Site]:
     if not isinstance(raw_sites, list) or not raw_sites:
         raise InputError("missing; give at least one [[sites]] table", file=file, where="table [[sites]]")
     sites: list[Site] = []
-    for i, v in enumerate(read_table_array(data, "sites", _SITE_FIELDS, file=file), start=1):
+    for i, v in enumerate(read_table_array(data, "sites", SITE_FIELDS, file=file), start=1):
         where_t = f"[[sites]] #{i}"
         if any(s.id == v["id"] for s in sites):
             raise InputError(f"duplicate site id {v['id']!r}", file=file, where=f"key {where_t} id")

@@ -26,7 +26,7 @@ from pathlib import Path
 from typing import Any
 
 from ..inputs.errors import InputError, ModelRangeError
-from ..inputs.scenario import _SITE_FIELDS, DEFAULT_SCENARIO_NAME, SCENARIO_SCHEMA, scenario_from_dict
+from ..inputs.scenario import DEFAULT_SCENARIO_NAME, SCENARIO_SCHEMA, SITE_FIELDS, scenario_from_dict
 from ..inputs.schema import read_toml
 
 __all__ = ["MAX_KEYS", "MAX_POINTS", "Vary", "SweepSetup", "SweepRow", "SweepResult", "read_scenario_data",
@@ -195,7 +195,7 @@ def _key_fields(data: dict) -> dict:
     if isinstance(sites, list):
         for s in sites:
             if isinstance(s, dict) and isinstance(s.get("id"), str):
-                for name, f in _numeric_fields(_SITE_FIELDS).items():
+                for name, f in _numeric_fields(SITE_FIELDS).items():
                     out[f"sites.{s['id']}.{name}"] = f
     bands = data.get("scenario", {}).get("bands") if isinstance(data.get("scenario"), dict) else None
     if isinstance(bands, list):
@@ -220,7 +220,7 @@ def _all_schema_keys(data: dict) -> set:
     keys = {f"{t}.{f.name}" for t, fields in SCENARIO_SCHEMA.items() for f in fields}
     sites = data.get("sites")
     if isinstance(sites, list):
-        keys |= {f"sites.{s.get('id')}.{f.name}" for s in sites if isinstance(s, dict) for f in _SITE_FIELDS}
+        keys |= {f"sites.{s.get('id')}.{f.name}" for s in sites if isinstance(s, dict) for f in SITE_FIELDS}
     return keys
 
 
