@@ -24,11 +24,13 @@ install: $(STAMP)
 demo: $(STAMP)
 	$(BIN)/tradeopt optimize
 
+# The full suite on every core (pytest-xdist); each module's tests stay on one worker, so a module's
+# shared fixture (e.g. a whole trade) runs once.
 test: $(STAMP)
-	$(BIN)/python -m pytest
+	$(BIN)/python -m pytest -n auto --dist loadscope
 
 test-fast: $(STAMP)
-	$(BIN)/python -m pytest -m "not slow"
+	$(BIN)/python -m pytest -m "not slow" -n auto --dist loadscope
 
 # ruff (style, imports, complexity), mypy (strict for physics and mission), import-linter (the layers)
 lint: $(LINT_STAMP)

@@ -215,15 +215,19 @@ def test_clear_sky_leo_volume_matches_the_contact_time(tmp_path):
 @pytest.mark.slow
 def test_one_and_two_workers_give_the_same_answer(geo_scenario, geo_work):
     # Catches: a result that depends on where or in which order the pieces ran (seeds per piece, merge
-    # order). Two synthetic years on a loopback LocalCluster of 1, then 2 processes.
+    # order). Two synthetic years: on a loopback cluster of 1 worker reached through its scheduler's
+    # address (the --scheduler path), then on a LocalCluster of 2 processes (the --workers path).
+    from distributed import LocalCluster
+
     runs = []
-    for n in (1, 2):
+    with LocalCluster(n_workers=1, threads_per_worker=1, host="127.0.0.1", dashboard_address=None) as cluster:
         res = sm.simulate(geo_scenario, years=2, seed=5, step_s=60.0, work=geo_work,
-                          execution=check_execution_options(workers=n))
+                          execution=check_execution_options(scheduler=cluster.scheduler_address, timeout_s=10))
         runs.append(build_simulation_files(res, "out", plots=False))
-    inproc = build_simulation_files(sm.simulate(geo_scenario, years=2, seed=5, step_s=60.0, work=geo_work),
-                                    "out", plots=False)
-    assert runs[0] == runs[1] == inproc
+    res = sm.simulate(geo_scenario, years=2, seed=5, step_s=60.0, work=geo_work,
+                      execution=check_execution_options(workers=2))
+    runs.append(build_simulation_files(res, "out", plots=False))
+    assert runs[0] == runs[1]
 
 
 def _kill_one_worker_when_busy(client, done):

@@ -346,17 +346,22 @@ def _second_processor_free() -> bool:
     return n >= 2 and os.getloadavg()[0] <= n - 1
 
 
-def _start_second_process(res, names, software: str):
-    """Fork a child that draws ``names`` and sends their PNG bytes back through a pipe; (pid, fd)."""
+def start_child(function, *args):
+    """Fork a child that runs ``function(*args)`` and sends the pickled result back through a pipe.
+
+    Returns ``(pid, fd)`` for :func:`collect_child`. The child leaves at once after sending (no
+    cleanup of the parent's state); warnings in the child are silenced (the parent redoes the work,
+    with its own warning rules, if the child fails).
+    """
     read_fd, write_fd = os.pipe()
     pid = os.fork()
-    if pid == 0:  # the child: draw, send, and leave at once (no cleanup of the parent's state)
+    if pid == 0:  # the child: run, send, and leave at once
         code = 1
         try:
             os.close(read_fd)
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
-                data = pickle.dumps(_render(res, names, software))
+                data = pickle.dumps(function(*args))
             view = memoryview(data)
             while view:
                 view = view[os.write(write_fd, view):]
@@ -367,8 +372,8 @@ def _start_second_process(res, names, software: str):
     return pid, read_fd
 
 
-def _collect_second_process(pid: int, read_fd: int, timeout_s: float) -> dict[str, bytes] | None:
-    """The child's figures, or None if it failed or did not finish within ``timeout_s``."""
+def collect_child(pid: int, read_fd: int, timeout_s: float):
+    """The child's result, or None if it failed or did not finish within ``timeout_s`` (then it is killed)."""
     chunks = []
     deadline = time.monotonic() + timeout_s
     try:
@@ -386,8 +391,23 @@ def _collect_second_process(pid: int, read_fd: int, timeout_s: float) -> dict[st
         os.waitpid(pid, 0)
     try:
         return pickle.loads(b"".join(chunks))
-    except Exception:  # a child that failed part way: its figures are drawn here instead
+    except Exception:  # a child that failed part way: its work is redone here instead
         return None
+
+
+def second_processor_free() -> bool:
+    """Whether a forked second process can work beside this one (see :func:`_second_processor_free`)."""
+    return _second_processor_free()
+
+
+def _start_second_process(res, names, software: str):
+    """Fork a child that draws ``names`` and sends their PNG bytes back through a pipe; (pid, fd)."""
+    return start_child(lambda: _render(res, names, software))
+
+
+def _collect_second_process(pid: int, read_fd: int, timeout_s: float) -> dict[str, bytes] | None:
+    """The child's figures, or None if it failed or did not finish within ``timeout_s``."""
+    return collect_child(pid, read_fd, timeout_s)
 
 
 def trade_plots(res, *, software: str, processes: int | None = None) -> dict[str, bytes]:

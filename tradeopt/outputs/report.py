@@ -287,6 +287,11 @@ def _tolerance_record(res: TradeResult) -> dict | None:
     return {"margin_basis": sc.margin_basis, **record}
 
 
+#: Longest wait for the forked process that renders report.html beside the PNG figures [s] (then the
+#: page is rendered here instead).
+REPORT_CHILD_TIMEOUT_S = 120.0
+
+
 def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
                 report: bool | None = None) -> dict[str, str | bytes]:
     """Every file of the results folder, in memory (name -> content), from the trade's result alone.
@@ -343,10 +348,20 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
     files["best.json"] = json.dumps(clean_for_json(best_json), indent=2, sort_keys=True) + "\n"
     text = summary_text(res, results_dir)
     files["summary.txt"] = text + "\n\ncautions:\n" + "\n".join(f"  - {c}" for c in CAUTIONS) + "\n"
+    want_report = plots if report is None else report
+    child = None
     if plots:
-        from .plots import trade_plots  # noqa: PLC0415
+        from .plots import collect_child, second_processor_free, start_child, trade_plots  # noqa: PLC0415
 
-        files.update(trade_plots(res, software=vline))
+        if want_report and second_processor_free():
+            # The page is built from the tables and best.json alone (never from the PNG files), so a
+            # forked process renders it while the PNG figures are drawn here: the same bytes, sooner.
+            from .report_html import report_html  # noqa: PLC0415
+
+            child = start_child(report_html, dict(files))
+            files.update(trade_plots(res, software=vline, processes=1))
+        else:
+            files.update(trade_plots(res, software=vline))
         if tolerance_record is not None:
             from .plots import tornado_figure_png  # noqa: PLC0415
 
@@ -354,8 +369,9 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
             files["tornado.png"] = tornado_figure_png(record, software=vline, title=(
                 f"{res.scenario.name}: best design, margin {tolerance_record['margin_statistics']['nominal_db']:.2f}"
                 " dB nominal"))
-    if plots if report is None else report:
+    if want_report:
         from .report_html import REPORT_NAME, report_html  # noqa: PLC0415
 
-        files[REPORT_NAME] = report_html(files)
+        html = collect_child(*child, REPORT_CHILD_TIMEOUT_S) if child is not None else None
+        files[REPORT_NAME] = html if isinstance(html, str) else report_html(files)
     return files

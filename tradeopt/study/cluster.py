@@ -65,7 +65,7 @@ class ExecutionOptions:
 
 
 def check_execution_options(*, workers: int | None = None, scheduler: str | None = None,
-                            timeout_s: float = SCHEDULER_TIMEOUT_S) -> ExecutionOptions:
+                            timeout_s: float | None = None) -> ExecutionOptions:
     """Validate the execution options of a study.
 
     Parameters
@@ -74,8 +74,8 @@ def check_execution_options(*, workers: int | None = None, scheduler: str | None
         Local worker processes [-], 1 to :data:`MAX_WORKERS`.
     scheduler : str, optional
         Address of an existing dask scheduler, e.g. ``tcp://10.0.0.5:8786``.
-    timeout_s : float
-        Time allowed to reach the scheduler [s], > 0.
+    timeout_s : float, optional
+        Time allowed to reach the scheduler [s], > 0; default :data:`SCHEDULER_TIMEOUT_S`.
 
     Returns
     -------
@@ -99,6 +99,8 @@ def check_execution_options(*, workers: int | None = None, scheduler: str | None
             raise InputError("expected a scheduler address such as tcp://127.0.0.1:8786", where="option --scheduler")
         if "://" not in scheduler:
             scheduler = "tcp://" + scheduler
+    if timeout_s is None:
+        timeout_s = SCHEDULER_TIMEOUT_S
     if not timeout_s > 0:
         raise InputError(f"expected a positive timeout in seconds, got {timeout_s!r}", where="option --scheduler")
     return ExecutionOptions(workers=workers, scheduler=scheduler, timeout_s=float(timeout_s))

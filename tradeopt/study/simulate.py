@@ -761,6 +761,10 @@ def _notes(setup: SimulationSetup, work):
     src = {"best": "the trade's best design", "band best": f"the best design of {setup.band_id}",
            "closest miss": f"the closest miss of {setup.band_id} (no design of the band keeps every constraint)"}
     yield f"simulated {src[setup.design_source]}"
+    if setup.scenario.orbit_kind == "tle":
+        age = orb.tle_age_warning(satrec_for(setup.scenario), setup.start_utc, float(DAYS_PER_YEAR * setup.years))
+        if age:
+            yield f"WARNING: {age}"
     if setup.scenario.orbit_kind in ("elements", "tle"):
         yield (f"geometry: the orbit propagated with SGP4 over every simulated year ({DAYS_PER_YEAR}-day years "
                f"from {np.datetime_as_string(setup.start_utc, unit='s')} UTC)")

@@ -111,7 +111,7 @@ def _bands_table(res):
 def _dish_tables(res):
     import pandas as pd  # noqa: PLC0415
 
-    curve_rows, dish_rows, power_rows = [], [], []
+    curve_rows, dish_frames, power_frames = [], [], []
     for space in res.spaces:
         curve = res.curves.get(space.band_id)
         if curve is None:
@@ -132,25 +132,25 @@ def _dish_tables(res):
             curve_rows.append(row)
         d_max, dmin = res.min_dish[space.band_id]
         n_a, n_m, n_c = len(space.craft_antenna_term_db), len(space.amplifier_term_db), len(space.modcod_term_db)
-        for j, dj in enumerate(dmin):
-            a, m, c = np.unravel_index(j, (n_a, n_m, n_c))
-            dish_rows.append({"band_id": space.band_id,
-                              "spacecraft_antenna_id": space.craft_antennas["spacecraft_antenna_id"].iloc[a],
-                              "amplifier_id": space.amplifiers["amplifier_id"].iloc[m],
-                              "modcod_id": space.modcods["modcod_id"].iloc[c],
-                              "closes_within_curve": bool(np.isfinite(dj)),
-                              "min_ground_diameter_m": float(dj) if np.isfinite(dj) else "",
-                              "curve_max_diameter_m": float(d_max)})
-        pw = res.least_power[space.band_id]
-        for g in range(pw.shape[0]):
-            for a in range(pw.shape[1]):
-                for c in range(pw.shape[2]):
-                    power_rows.append({"band_id": space.band_id,
-                                       "ground_antenna_id": space.ground["ground_antenna_id"].iloc[g],
-                                       "spacecraft_antenna_id": space.craft_antennas["spacecraft_antenna_id"].iloc[a],
-                                       "modcod_id": space.modcods["modcod_id"].iloc[c],
-                                       "least_rf_power_w": float(pw[g, a, c])})
-    return pd.DataFrame(curve_rows), pd.DataFrame(dish_rows), pd.DataFrame(power_rows)
+        craft_ids = space.craft_antennas["spacecraft_antenna_id"].to_numpy(object)
+        amp_ids = space.amplifiers["amplifier_id"].to_numpy(object)
+        mod_ids = space.modcods["modcod_id"].to_numpy(object)
+        dmin = np.asarray(dmin, dtype=float)
+        a, m, c = np.unravel_index(np.arange(dmin.size), (n_a, n_m, n_c))
+        closes = np.isfinite(dmin)
+        dish_frames.append(pd.DataFrame({
+            "band_id": space.band_id, "spacecraft_antenna_id": craft_ids[a], "amplifier_id": amp_ids[m],
+            "modcod_id": mod_ids[c], "closes_within_curve": closes,
+            "min_ground_diameter_m": np.where(closes, dmin.astype(object), ""),
+            "curve_max_diameter_m": float(d_max)}))
+        pw = np.asarray(res.least_power[space.band_id], dtype=float)
+        g, a, c = np.unravel_index(np.arange(pw.size), pw.shape)
+        power_frames.append(pd.DataFrame({
+            "band_id": space.band_id, "ground_antenna_id": space.ground["ground_antenna_id"].to_numpy(object)[g],
+            "spacecraft_antenna_id": craft_ids[a], "modcod_id": mod_ids[c], "least_rf_power_w": pw.reshape(-1)}))
+    dish = pd.concat(dish_frames, ignore_index=True) if dish_frames else pd.DataFrame()
+    power = pd.concat(power_frames, ignore_index=True) if power_frames else pd.DataFrame()
+    return pd.DataFrame(curve_rows), dish, power
 
 
 def _design(res, space, rec) -> Design:
