@@ -89,3 +89,19 @@ def test_no_second_process_on_a_busy_or_single_processor_machine(monkeypatch):
     monkeypatch.setattr(plots, "_processors", lambda: 1)
     monkeypatch.setattr(plots.os, "getloadavg", lambda: (0.0, 0.0, 0.0))
     assert not plots._second_processor_free()
+
+
+def test_report_page_rendered_in_a_second_process_is_the_same_page(res, monkeypatch):
+    # Catches: a report.html rendered in the forked process from other inputs than the page rendered
+    # here (e.g. with the PNG files, or before a table was added), and a failed child losing the page.
+    from tradeopt.outputs import report
+
+    monkeypatch.setattr(plots, "_second_processor_free", lambda: False)
+    here = report.build_files(res, "out")
+    monkeypatch.setattr(plots, "_second_processor_free", lambda: True)
+    forked = report.build_files(res, "out")
+    assert forked == here
+    real_collect = plots.collect_child
+    # the child's answer is lost (as when it fails): the page is rendered here
+    monkeypatch.setattr(plots, "collect_child", lambda *a: (real_collect(*a), None)[1])
+    assert report.build_files(res, "out") == here
