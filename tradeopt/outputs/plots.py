@@ -45,7 +45,7 @@ def _style(res, band_id: str) -> dict:
     return BAND_STYLE.get(letter, _OTHER_STYLE)
 
 
-def _figure(*args, **kwargs):
+def new_figure(*args, **kwargs):
     """A figure and its axes on its own Agg canvas (``Figure.subplots`` arguments; figure keywords
     ``figsize`` and ``layout``), without pyplot: nothing is registered globally and pyplot's import
     and figure manager are not paid for."""
@@ -57,7 +57,8 @@ def _figure(*args, **kwargs):
     return fig, fig.subplots(*args, **kwargs)
 
 
-def _png(fig, software: str) -> bytes:
+def png_bytes(fig, software: str) -> bytes:
+    """A figure as PNG bytes at 110 dpi with the given ``Software`` text and no time stamp (reproducible)."""
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, metadata={"Software": software})
     return buf.getvalue()
@@ -102,7 +103,7 @@ def pareto_figure(res):
     from matplotlib.cm import ScalarMappable  # noqa: PLC0415
     from matplotlib.lines import Line2D  # noqa: PLC0415
 
-    fig, ax = _figure(figsize=(7.6, 5.6), layout="constrained")
+    fig, ax = new_figure(figsize=(7.6, 5.6), layout="constrained")
     handles = []
     cloud = _feasible_points(res)
     if cloud is not None and len(cloud):
@@ -181,7 +182,7 @@ def dish_curve_figure(res):
     import numpy as np  # noqa: PLC0415
     from matplotlib.lines import Line2D  # noqa: PLC0415
 
-    fig, (ax1, ax2) = _figure(1, 2, figsize=(10.0, 4.4), layout="constrained")
+    fig, (ax1, ax2) = new_figure(1, 2, figsize=(10.0, 4.4), layout="constrained")
     empty = []
     knee_shown = False
     import pandas as pd  # noqa: PLC0415
@@ -234,7 +235,7 @@ def margin_figure(res):
     """
     import numpy as np  # noqa: PLC0415
 
-    fig, ax = _figure(figsize=(7.2, 4.8), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 4.8), layout="constrained")
     rows = [r for r in res.margin_vs_elevation.to_dict("records") if np.isfinite(r["margin_db"])]
     sites = sorted({r["site_id"] for r in rows})
     for band_id in sorted({r["band_id"] for r in rows}):
@@ -270,7 +271,7 @@ def attenuation_figure(res):
     import numpy as np  # noqa: PLC0415
     from matplotlib.ticker import FixedFormatter, FixedLocator, NullFormatter  # noqa: PLC0415
 
-    fig, ax = _figure(figsize=(7.2, 4.8), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 4.8), layout="constrained")
     rows = [r for r in res.attenuation.to_dict("records") if np.isfinite(r["total_db"])]
     sites = sorted({r["site_id"] for r in rows})
     for band_id in sorted({r["band_id"] for r in rows}):
@@ -316,7 +317,7 @@ def _render(res, names, software: str) -> dict[str, bytes]:
     with rc_context(_RC):
         for name, builder in _FIGURES:
             if name in names:
-                out[name] = _png(globals()[builder](res), software)
+                out[name] = png_bytes(globals()[builder](res), software)
     return out
 
 
@@ -465,7 +466,7 @@ def tornado_figure(record: dict, *, title: str = ""):
     """
     rows = record["sensitivity"]
     nominal = record["margin_statistics"]["nominal_db"]
-    fig, ax = _figure(figsize=(7.2, 0.9 + 0.42 * max(1, len(rows))), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 0.9 + 0.42 * max(1, len(rows))), layout="constrained")
     y = list(range(len(rows)))[::-1]
     lo = [r["adverse_margin_db"] - nominal for r in rows]
     hi = [r["favorable_margin_db"] - nominal for r in rows]
@@ -503,7 +504,7 @@ def margin_histogram_figure(margin_samples_db, record: dict, *, title: str = "")
 
     x = np.asarray(margin_samples_db, dtype=float)
     mc, st = record["monte_carlo"], record["margin_statistics"]
-    fig, ax = _figure(figsize=(7.2, 4.4), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 4.4), layout="constrained")
     ax.hist(x, bins=min(100, max(10, int(np.sqrt(x.size)))), color=_GREY, edgecolor="#555555", linewidth=0.3,
             label=f"{mc['samples']:,} samples (seed {mc['seed']})")
     req = record["required_margin_db"]
@@ -526,9 +527,9 @@ def tolerance_plots(record: dict, margin_samples_db=None, *, software: str, titl
 
     out = {}
     with rc_context(_RC):
-        out["tornado.png"] = _png(tornado_figure(record, title=title), software)
+        out["tornado.png"] = png_bytes(tornado_figure(record, title=title), software)
         if margin_samples_db is not None and record.get("monte_carlo"):
-            out["margin_histogram.png"] = _png(margin_histogram_figure(margin_samples_db, record, title=title),
+            out["margin_histogram.png"] = png_bytes(margin_histogram_figure(margin_samples_db, record, title=title),
                                                software)
     return out
 
@@ -538,4 +539,4 @@ def tornado_figure_png(record: dict, *, software: str, title: str = "") -> bytes
     from matplotlib import rc_context  # noqa: PLC0415
 
     with rc_context(_RC):
-        return _png(tornado_figure(record, title=title), software)
+        return png_bytes(tornado_figure(record, title=title), software)

@@ -110,31 +110,16 @@ def simulation_text(res, folder: str | None = None) -> str:
     return "\n".join(lines)
 
 
-def _figure(figsize):
-    from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415
-    from matplotlib.figure import Figure  # noqa: PLC0415
-
-    fig = Figure(figsize=figsize, layout="constrained")
-    FigureCanvasAgg(fig)
-    return fig, fig.subplots()
-
-
-def _png(fig, software: str) -> bytes:
-    import io  # noqa: PLC0415
-
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=110, metadata={"Software": software})
-    return buf.getvalue()
-
-
 def simulation_plots(res, *, software: str) -> dict[str, bytes]:
     """The four plots of a simulation as PNG bytes (deterministic: no time stamps)."""
     import matplotlib as mpl  # noqa: PLC0415
 
+    from .plots import new_figure, png_bytes  # noqa: PLC0415
+
     out = {}
     with mpl.rc_context({"svg.hashsalt": "tradeopt", "font.size": 9}):
         # storage fill over time: each day's highest and end-of-day fill
-        fig, ax = _figure((8, 4.0))
+        fig, ax = new_figure(figsize=(8, 4.0), layout="constrained")
         h = res.store_hourly
         n_days = len(h) // 24
         day = np.arange(n_days) + 1.0
@@ -154,9 +139,9 @@ def simulation_plots(res, *, software: str) -> dict[str, bytes]:
         ax.grid(True, alpha=0.3)
         ax.set_ylim(bottom=0)
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.16), ncol=2, fontsize=7, frameon=False)
-        out["storage_fill.png"] = _png(fig, software)
+        out["storage_fill.png"] = png_bytes(fig, software)
         # daily volume distribution
-        fig, ax = _figure((6.4, 4.0))
+        fig, ax = new_figure(figsize=(6.4, 4.0), layout="constrained")
         for mode, color, ls in (("fixed", _FIXED, "-"), ("adaptive", _ADAPTIVE, "--")):
             v = np.sort(res.daily[f"{mode}_bits"].to_numpy(float)) / 1e9
             frac = np.arange(1, v.size + 1) / max(v.size, 1)
@@ -168,14 +153,9 @@ def simulation_plots(res, *, software: str) -> dict[str, bytes]:
         ax.set_title("Daily volume: fixed against adaptive coded modulation")
         ax.grid(True, alpha=0.3)
         ax.legend(loc="lower right", fontsize=8)
-        out["daily_volume.png"] = _png(fig, software)
+        out["daily_volume.png"] = png_bytes(fig, software)
         # the representative day's margin: the whole day, and its worst pass in detail
-        from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415
-        from matplotlib.figure import Figure  # noqa: PLC0415
-
-        fig = Figure(figsize=(8, 6.4), layout="constrained")
-        FigureCanvasAgg(fig)
-        ax, zoom = fig.subplots(2, 1)
+        fig, (ax, zoom) = new_figure(2, 1, figsize=(8, 6.4), layout="constrained")
         md = res.margin_day
         step_h = res.setup.step_s / 3600.0
         worst = md.loc[md["margin_db"].idxmin()] if len(md) else None
@@ -208,9 +188,9 @@ def simulation_plots(res, *, software: str) -> dict[str, bytes]:
         ax.set_xlim(0, 24)
         zoom.set_xlabel("time from the start of the pass [min]")
         zoom.set_ylabel("[dB], [deg / 10]")
-        out["margin_day.png"] = _png(fig, software)
+        out["margin_day.png"] = png_bytes(fig, software)
         # exceedance against P.618
-        fig, ax = _figure((6.4, 4.2))
+        fig, ax = new_figure(figsize=(6.4, 4.2), layout="constrained")
         ex = res.exceedance
         for k, (sid, grp) in enumerate(ex.groupby("site_id", sort=False)):
             color, ls = _SITE_STYLES[k % len(_SITE_STYLES)]
@@ -224,7 +204,7 @@ def simulation_plots(res, *, software: str) -> dict[str, bytes]:
         ax.set_title(f"Synthesized rain attenuation against ITU-R P.618 ({res.setup.band_id})")
         ax.grid(True, which="both", alpha=0.3)
         ax.legend(loc="upper right", fontsize=7)
-        out["attenuation_exceedance.png"] = _png(fig, software)
+        out["attenuation_exceedance.png"] = png_bytes(fig, software)
     return out
 
 

@@ -8,11 +8,10 @@ two keys: maps of the chosen band and of the objective). No physics here.
 """
 from __future__ import annotations
 
-import io
 import json
 import math
 
-from .plots import BAND_STYLE
+from .plots import BAND_STYLE, new_figure, png_bytes
 from .provenance import clean_for_json, versions
 from .report import CAUTIONS, csv_text, version_line
 
@@ -78,22 +77,6 @@ def sweep_text(res, folder: str | None = None) -> str:
     return "\n".join(head + [""] + lines)
 
 
-def _figure(*args, **kwargs):
-    """A figure and its axes on its own Agg canvas, without pyplot (as :mod:`tradeopt.outputs.plots`)."""
-    from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: PLC0415
-    from matplotlib.figure import Figure  # noqa: PLC0415
-
-    fig = Figure(figsize=kwargs.pop("figsize"), layout=kwargs.pop("layout", None))
-    FigureCanvasAgg(fig)
-    return fig, fig.subplots(*args, **kwargs)
-
-
-def _png(fig, software: str) -> bytes:
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=110, metadata={"Software": software})
-    return buf.getvalue()
-
-
 def _bands_in_order(res) -> list:
     """(band_id, band letter) of the chosen bands, in the order they first appear."""
     seen: dict = {}
@@ -115,7 +98,7 @@ def _line_figure(res):
     key = res.keys[0]
     _, label = OBJECTIVE_LABEL[res.objective]
     xs = [float(r.values[0]) for r in res.rows]
-    fig, (ax, axb) = _figure(2, 1, figsize=(7.6, 5.6), layout="constrained", sharex=True,
+    fig, (ax, axb) = new_figure(2, 1, figsize=(7.6, 5.6), layout="constrained", sharex=True,
                              gridspec_kw={"height_ratios": [3, 1.4]})
     bands = _bands_in_order(res)
     level = {b: i + 1 for i, (b, _) in enumerate(bands)}
@@ -197,7 +180,7 @@ def _grid_figure(res):
         cat[i, j] = code.get(r.band_id, 0)
         if r.band_id is not None:
             obj[i, j] = r.objective_value(res.objective)
-    fig, (axl, axr) = _figure(1, 2, figsize=(10.0, 4.8), layout="constrained")
+    fig, (axl, axr) = new_figure(1, 2, figsize=(10.0, 4.8), layout="constrained")
     colors = [_NONE_COLOR] + [_style(letter)["color"] for _, letter in bands]
     axl.imshow(cat, origin="lower", aspect="auto", cmap=ListedColormap(colors), vmin=-0.5,
                vmax=len(colors) - 0.5, interpolation="nearest")
@@ -247,5 +230,5 @@ def build_sweep_files(res, folder: str, *, plots: bool = True) -> dict[str, str 
         from matplotlib import rc_context  # noqa: PLC0415
 
         with rc_context(_RC):
-            files["sweep.png"] = _png(sweep_figure(res), vline)
+            files["sweep.png"] = png_bytes(sweep_figure(res), vline)
     return files
