@@ -105,3 +105,23 @@ def test_nominal_basis_keeps_the_designs_table_unchanged(scenario):
     # users compare its bytes).
     designs = assemble(run_trade(scenario, sizing=False)).designs
     assert "margin_basis" not in designs.columns and "basis_margin_db" not in designs.columns
+
+
+def test_volume_closing_rates_honour_the_margin_basis(scenario):
+    # Catches: the delivered-volume analysis still keeping the required margin on the nominal margin
+    # when the search keeps it on another statistic. One design only (every axis pinned), so both runs
+    # pick it: the rate that keeps the required margin at each site scales by 10^(offset / 10).
+    from tradeopt.trade.optimize import design_ids
+
+    tol = dataclasses.replace(scenario, tolerances=TOLERANCES, margin_basis="adverse")
+    first = run_trade(tol, sizing=False, keep_designs=False)  # the adverse basis' design, then pinned
+    ids = design_ids(first.space(first.search.best["band_id"]), *(first.search.best[k] for k in "gamc"))
+    options = dataclasses.replace(scenario.options, ground_antennas=(ids["ground_antenna_id"],),
+                                  spacecraft_antennas=(ids["spacecraft_antenna_id"],),
+                                  amplifiers=(ids["amplifier_id"],), modcods=(ids["modcod_id"],))
+    nominal = run_trade(dataclasses.replace(scenario, options=options), sizing=False)
+    adverse = run_trade(dataclasses.replace(tol, options=options), sizing=False)
+    assert nominal.search.best is not None and adverse.search.best is not None
+    ratio = 10.0 ** (_hand_offset_db("adverse") / 10.0)
+    for a, b in zip(nominal.volume["sites"], adverse.volume["sites"]):
+        assert b["closing_rate_bps"] == pytest.approx(a["closing_rate_bps"] * ratio, rel=1e-9)
