@@ -46,8 +46,8 @@ def _warm(piece, setup):
 
 
 def _rate(workers: int, setup, pieces) -> float:
-    from tradeopt.study.cluster import check_execution_options, run_pieces, study_client
     from tradeopt.study import simulate as sm
+    from tradeopt.study.cluster import check_execution_options, run_pieces, study_client
 
     with study_client(check_execution_options(workers=workers)) as client:
         warm = [client.submit(_warm, (0, 0), client.scatter(setup), pure=False, workers=[w])
