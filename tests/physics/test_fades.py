@@ -238,3 +238,28 @@ def test_site_diversity_edge_thresholds_give_no_nan():
             assert out.outage_a_percent == 0.0 and out.joint_outage_percent == 0.0
     with pytest.raises(ValueError, match="NaN"):
         fades.site_diversity(**base, threshold_a_db=math.nan, threshold_b_db=3.0)
+
+
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
+def test_diversity_gain_is_read_no_further_out_than_the_p618_range():
+    # Catches: a gain read from the lognormal at a joint outage of 1e-15 % (far sites with large
+    # thresholds), i.e. tens of dB of "gain" resting on an extrapolation. Below 0.001 % (the lower end
+    # of the P.618-13 rain method) the gain is read at 0.001 %: A_i(0.001 %) - a_i from the P.618
+    # diversity method's own lognormal fit (itur's fit_rain_attenuation_to_lognormal, conditional on rain).
+    from scipy.stats import norm
+
+    out = fades.site_diversity(latitude_a_deg=48.0, longitude_a_deg=8.0, altitude_a_m=300.0, elevation_a_deg=30.0,
+                               threshold_a_db=6.0, latitude_b_deg=30.0, longitude_b_deg=-10.0, altitude_b_m=300.0,
+                               elevation_b_deg=30.0, threshold_b_db=6.0, frequency_hz=14e9)
+    assert out.joint_outage_percent < fades.DIVERSITY_GAIN_FLOOR_PERCENT
+    i = "a" if out.outage_a_percent <= out.outage_b_percent else "b"
+    site = dict(latitude_deg=48.0, longitude_deg=8.0) if i == "a" else dict(latitude_deg=30.0, longitude_deg=-10.0)
+    import itur.models.itu618 as itu618
+    import itur.models.itu837 as itu837
+
+    p0 = float(itu837.rainfall_probability(site["latitude_deg"], site["longitude_deg"]).value)  # [%]
+    sigma, m = itu618.fit_rain_attenuation_to_lognormal(site["latitude_deg"], site["longitude_deg"], 14.0, 30.0,
+                                                        0.3, p0, 45)
+    m, sigma = float(np.squeeze(m)), float(np.squeeze(sigma))
+    a_floor = math.exp(m + sigma * norm.isf(0.001 / p0))
+    assert out.diversity_gain_db == pytest.approx(max(a_floor - 6.0, 0.0), rel=1e-9, abs=1e-12)

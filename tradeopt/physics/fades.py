@@ -52,6 +52,7 @@ from .validity import check_range
 
 __all__ = [
     "NOISE_BLOCK_SAMPLES",
+    "DIVERSITY_GAIN_FLOOR_PERCENT",
     "WARMUP_S",
     "FILTER_BETA_PER_S",
     "DiversityOutage",
@@ -76,6 +77,9 @@ DEFAULT_CHUNK_SAMPLES = 30 * 86_400
 _FIT_PERCENTS = (0.01, 0.02, 0.03, 0.05, 0.1, 0.2, 0.3, 0.5, 1.0, 2.0, 3.0, 5.0, 10.0)
 #: Frequencies for which P.1853-1 states its Earth-space rain synthesis [Hz].
 SYNTHESIS_FREQUENCY_RANGE_HZ = (4.0e9, 55.0e9)
+#: Lowest percentage of time at which the diversity gain reads a station's lognormal rain model [%]
+#: (the lower end of the ITU-R P.618-13 rain attenuation method, 0.001 % to 5 %).
+DIVERSITY_GAIN_FLOOR_PERCENT = 0.001
 #: Time steps accepted [s]: positive, and well below the filter's 1/beta = 5000 s correlation time.
 STEP_RANGE_S = (0.0, 600.0)
 
@@ -508,8 +512,11 @@ def site_diversity(*, latitude_a_deg: float, longitude_a_deg: float, altitude_a_
     The diversity gain is tradeopt's definition, related to (not the same as) the gain of P.618-13
     section 2.2.4.2: for the station with the smaller single outage (a on a tie),
     A_i(p_joint) - max(a_i, 0), where A_i(p) = exp(m_i + sigma_i Q^{-1}(p / (100 P_i))) inverts its
-    lognormal model; 0 when the joint outage is 0. itur's documentation states the outage method for
-    frequencies below 20 GHz.
+    lognormal model; 0 when the joint outage is 0. A joint outage below
+    :data:`DIVERSITY_GAIN_FLOOR_PERCENT` (0.001 %, the lowest percentage of the P.618 rain model) is
+    read at that floor, so the gain never rests on the lognormal far outside its fitted range (the
+    gain is then a lower bound). itur's documentation states the outage method for frequencies below
+    20 GHz.
 
     Parameters
     ----------
@@ -556,7 +563,9 @@ def site_diversity(*, latitude_a_deg: float, longitude_a_deg: float, altitude_a_
     m_i, sigma_i, p_i = fits[i]
     gain = 0.0
     if joint > 0.0:
-        a_joint = math.exp(m_i + sigma_i * float(norm.isf(min(joint / (100.0 * p_i), 1.0))))
+        # read the lognormal no further out than the P.618 rain model's own range (0.001 % of the time)
+        p_eval = max(joint, DIVERSITY_GAIN_FLOOR_PERCENT)
+        a_joint = math.exp(m_i + sigma_i * float(norm.isf(min(p_eval / (100.0 * p_i), 1.0))))
         gain = max(a_joint - max(thresholds[i], 0.0), 0.0)
         gain = gain if math.isfinite(gain) else 0.0
     return DiversityOutage(separation_km=d_km, outage_a_percent=single[0], outage_b_percent=single[1],

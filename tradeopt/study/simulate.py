@@ -158,6 +158,8 @@ class SimulationSetup:
         Seed of the synthetic weather [-].
     weather : bool
         False: no rain (clear-sky runs and tests).
+    rain_outside_synthesis : bool
+        True when the band lies outside P.1853-1's 4-55 GHz, so no rain series was synthesized.
     """
 
     scenario: Any
@@ -182,6 +184,7 @@ class SimulationSetup:
     years: int
     seed: int
     weather: bool = True
+    rain_outside_synthesis: bool = False
 
     @property
     def steps_per_year(self) -> int:
@@ -350,6 +353,14 @@ def simulation_setup(scenario, *, years: int = 1, seed: int = 0, step_s: float =
     if work is None:
         work = run_trade(scenario, keep_designs=False, sizing=False)
     space, rec, source = _pick_design(work, band_id)
+    low_hz, high_hz = fades.SYNTHESIS_FREQUENCY_RANGE_HZ
+    if weather and not low_hz <= space.frequency_hz <= high_hz:
+        # Below 4 GHz (S band) P.1853-1 does not apply and rain fades are hundredths of a dB (P.618): the
+        # series is left out, and the statistical terms at the availability stay in the margin (a note says so).
+        weather = False
+        skipped_rain = True
+    else:
+        skipped_rain = False
     g, a, m, c = rec["g"], rec["a"], rec["m"], rec["c"]
     row = space.ground.iloc[g]
     gain_minus_point, t_clear = _ground_terms(space, g)
@@ -401,7 +412,7 @@ def simulation_setup(scenario, *, years: int = 1, seed: int = 0, step_s: float =
         modcod_ids=tuple(str(x) for x in mods["modcod_id"].iloc[members]), modcod_offset_db=np.asarray(offset, float),
         modcod_rate_bps=np.asarray(rates, float), sites=tuple(links),
         start_utc=np.datetime64(scenario.contacts.start_utc.replace("Z", ""), "ns"), step_s=float(step_s),
-        years=int(years), seed=int(seed), weather=bool(weather))
+        years=int(years), seed=int(seed), weather=bool(weather), rain_outside_synthesis=skipped_rain)
     return setup, work
 
 
@@ -773,6 +784,11 @@ def _notes(setup: SimulationSetup, work):
     if setup.scenario.requirement.daily_volume_bits is None and not setup.scenario.requirement.volume_from_demand:
         yield ("the scenario gives a rate: data is generated at that rate times the required sites' contact time "
                "per day (of the scenario's contact window), spread evenly over the day")
-    if not setup.weather:
+    if setup.rain_outside_synthesis:
+        lo, hi = fades.SYNTHESIS_FREQUENCY_RANGE_HZ
+        yield (f"{setup.band_id} at {setup.frequency_hz / 1e9:.4g} GHz lies outside the {lo / 1e9:g}-{hi / 1e9:g} GHz "
+               "of the ITU-R P.1853-1 synthesis: no rain series (rain fades there are hundredths of a dB in P.618); "
+               "the gas, cloud and scintillation terms at the availability stay in the margin")
+    elif not setup.weather:
         yield "no rain: the clear-sky reference"
     del work
