@@ -279,3 +279,20 @@ def test_s_band_has_no_rain_series_and_says_so():
     setup, work = sm.simulation_setup(tradeopt.load_scenario(), band_id="S-DOWN", step_s=60.0)
     assert setup.frequency_hz < 4e9 and not setup.weather and setup.rain_outside_synthesis
     assert any("outside the 4-55 GHz" in n for n in sm._notes(setup, work))
+
+
+def test_diversity_note_names_the_site_the_pair_rescues():
+    # Catches: the note missing when one site of a pair misses the availability alone (the case that
+    # matters at Ka band: the pair carries the weak site), or shown when both sites meet it alone.
+    import pandas as pd
+
+    table = pd.DataFrame([
+        {"site_a": "fen-a", "site_b": "fen-b", "outage_a_percent": 0.43, "outage_b_percent": 1.83,
+         "joint_outage_percent": 0.10, "pair_meets_availability": True, "single_meets_availability": False},
+        {"site_a": "fen-a", "site_b": "dry-c", "outage_a_percent": 0.43, "outage_b_percent": 0.01,
+         "joint_outage_percent": 0.001, "pair_meets_availability": True, "single_meets_availability": True},
+        {"site_a": "fen-b", "site_b": "bog-d", "outage_a_percent": 1.83, "outage_b_percent": 2.5,
+         "joint_outage_percent": 0.9, "pair_meets_availability": False, "single_meets_availability": False}])
+    notes = sm.diversity_notes(table, availability_percent=99.5, band_id="KA-DOWN")
+    assert notes == ["site diversity: fen-a and fen-b together meet the 99.5 % availability at KA-DOWN "
+                     "(joint outage 0.1 %) where fen-b (1.83 %) does not alone"]

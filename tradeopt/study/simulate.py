@@ -50,7 +50,7 @@ from ..trade.space import site_geometry, site_terms_for_apertures
 from .cluster import ExecutionOptions, run_pieces, study_client
 
 __all__ = ["SiteLink", "SimulationSetup", "SimulationResult", "PieceResult", "simulate", "simulation_setup",
-           "simulate_piece", "DAYS_PER_YEAR", "EXCEEDANCE_PERCENT", "check_simulation_args"]
+           "simulate_piece", "DAYS_PER_YEAR", "EXCEEDANCE_PERCENT", "check_simulation_args", "diversity_notes"]
 
 #: Days in one simulated year [day] (a synthetic year of 365 days, the P.1853 "year" of samples).
 DAYS_PER_YEAR = 365
@@ -253,7 +253,8 @@ class SimulationResult:
     diversity : pandas.DataFrame
         One row per pair of required sites: ``site_a``, ``site_b``, ``separation_km``, ``threshold_a_db``,
         ``threshold_b_db``, ``outage_a_percent``, ``outage_b_percent``, ``joint_outage_percent``,
-        ``diversity_gain_db``, ``pair_meets_availability``, ``single_meets_availability``.
+        ``diversity_gain_db``, ``pair_meets_availability`` (joint outage within the unavailability),
+        ``single_meets_availability`` (each site's own outage within it).
     storage : dict
         ``fixed`` and ``adaptive``: ``capacity_bits``, ``generated_bits``, ``delivered_bits``, ``lost_bits``,
         ``stored_end_bits``, ``max_fill_bits``.
@@ -564,7 +565,7 @@ def _diversity(setup: SimulationSetup, availability_percent: float) -> pd.DataFr
                 latitude_b_deg=b.latitude_deg, longitude_b_deg=b.longitude_deg, altitude_b_m=b.altitude_m,
                 elevation_b_deg=b.synthesis_elevation_deg, threshold_b_db=thresholds[b.site_id],
                 frequency_hz=setup.frequency_hz, polarization_tilt_deg=setup.scenario.polarization_tilt_deg)
-            single = min(d.outage_a_percent, d.outage_b_percent) <= limit
+            single = max(d.outage_a_percent, d.outage_b_percent) <= limit  # each site meets it alone
             rows.append({"site_a": a.site_id, "site_b": b.site_id, "separation_km": d.separation_km,
                          "threshold_a_db": thresholds[a.site_id], "threshold_b_db": thresholds[b.site_id],
                          "outage_a_percent": d.outage_a_percent, "outage_b_percent": d.outage_b_percent,
@@ -734,15 +735,36 @@ def _assemble(setup: SimulationSetup, work, results: list, storage_bits) -> Simu
     margin_day = _margin_day(setup, results, worst[2])
     notes = list(_notes(setup, work))
     diversity = _diversity(setup, required)
-    for r in diversity.itertuples():
-        if r.pair_meets_availability and not r.single_meets_availability:
-            notes.append(f"site diversity: {r.site_a} and {r.site_b} together meet the {required:g} % availability "
-                         f"at {setup.band_id} (joint outage {r.joint_outage_percent:.4g} %) where neither does alone "
-                         f"({r.outage_a_percent:.4g} %, {r.outage_b_percent:.4g} %)")
+    notes.extend(diversity_notes(diversity, availability_percent=required, band_id=setup.band_id))
     return SimulationResult(setup=setup, daily=daily, sites=sites, exceedance=_exceedance(setup, results),
                             diversity=diversity, storage=ledger, store_hourly=store_hourly, margin_day=margin_day,
                             margin_day_index=int(worst[2]), daily_requirement_bits=daily_req,
                             generation_rate_bps=float(gen_rate), notes=notes)
+
+
+def diversity_notes(diversity: pd.DataFrame, *, availability_percent: float, band_id: str) -> list[str]:
+    """A note for each pair of sites that meets the availability together where a site of it does not alone.
+
+    Parameters
+    ----------
+    diversity : pandas.DataFrame
+        The diversity table (``site_a``, ``site_b``, ``outage_a_percent``, ``outage_b_percent``,
+        ``joint_outage_percent``, ``pair_meets_availability``, ``single_meets_availability``).
+    availability_percent : float
+        Required availability [%].
+    band_id : str
+        The band simulated.
+    """
+    notes = []
+    limit = 100.0 - availability_percent
+    for r in diversity.to_dict(orient="records"):
+        if r["pair_meets_availability"] and not r["single_meets_availability"]:
+            alone = [f"{sid} ({out:.4g} %)" for sid, out in ((r["site_a"], r["outage_a_percent"]),
+                                                           (r["site_b"], r["outage_b_percent"])) if out > limit]
+            notes.append(f"site diversity: {r['site_a']} and {r['site_b']} together meet the {availability_percent:g} % "
+                         f"availability at {band_id} (joint outage {r['joint_outage_percent']:.4g} %) where "
+                         f"{' and '.join(alone)} {'does' if len(alone) == 1 else 'do'} not alone")
+    return notes
 
 
 def _longest_run_s(steps: np.ndarray, step_s: float) -> float:
