@@ -761,8 +761,9 @@ def diversity_notes(diversity: pd.DataFrame, *, availability_percent: float, ban
         if r["pair_meets_availability"] and not r["single_meets_availability"]:
             alone = [f"{sid} ({out:.4g} %)" for sid, out in ((r["site_a"], r["outage_a_percent"]),
                                                            (r["site_b"], r["outage_b_percent"])) if out > limit]
+            joint = r["joint_outage_percent"]
             notes.append(f"site diversity: {r['site_a']} and {r['site_b']} together meet the "
-                         f"{availability_percent:g} % availability at {band_id} (joint outage {r['joint_outage_percent']:.4g} %) where "
+                         f"{availability_percent:g} % availability at {band_id} (joint outage {joint:.4g} %) where "
                          f"{' and '.join(alone)} {'does' if len(alone) == 1 else 'do'} not alone")
     return notes
 
