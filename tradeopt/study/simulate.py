@@ -58,8 +58,10 @@ DAYS_PER_YEAR = 365
 EXCEEDANCE_PERCENT = (0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0, 2.0, 5.0)
 #: Bin width of the attenuation histograms each piece returns [dB] (exceedance read to this resolution).
 HIST_STEP_DB = 0.005
-#: Largest attenuation binned [dB] (larger values fall into the last bin).
-HIST_MAX_DB = 150.0
+#: Largest attenuation binned [dB] (larger values fall into the last bin, so an exceedance read there
+#: means "at least this"; the lognormal of the synthesis is unbounded, and tropical Ka-band series at
+#: 0.01 % pass 150 dB).
+HIST_MAX_DB = 500.0
 #: Elevation grid step of the per-site model tables [deg].
 GRID_STEP_DEG = 0.25
 #: Largest number of synthetic years accepted.
