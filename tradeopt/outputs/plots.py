@@ -466,7 +466,7 @@ def tornado_figure(record: dict, *, title: str = ""):
     """
     rows = record["sensitivity"]
     nominal = record["margin_statistics"]["nominal_db"]
-    fig, ax = new_figure(figsize=(7.2, 0.9 + 0.42 * max(1, len(rows))), layout="constrained")
+    fig, ax = new_figure(figsize=(7.2, 1.4 + 0.42 * max(1, len(rows))), layout="constrained")
     y = list(range(len(rows)))[::-1]
     lo = [r["adverse_margin_db"] - nominal for r in rows]
     hi = [r["favorable_margin_db"] - nominal for r in rows]
@@ -480,7 +480,7 @@ def tornado_figure(record: dict, *, title: str = ""):
     ax.set_xlabel("margin [dB] with one term at an end of its tolerance")
     ax.set_title(title or "sensitivity of the margin to each toleranced term")
     ax.grid(alpha=0.3, axis="x")
-    ax.legend(fontsize=7, loc="best")
+    ax.legend(fontsize=7, loc="upper center", bbox_to_anchor=(0.5, -0.3), ncol=4, frameon=False)
     return fig
 
 
