@@ -296,3 +296,16 @@ def test_diversity_note_names_the_site_the_pair_rescues():
     notes = sm.diversity_notes(table, availability_percent=99.5, band_id="KA-DOWN")
     assert notes == ["site diversity: fen-a and fen-b together meet the 99.5 % availability at KA-DOWN "
                      "(joint outage 0.1 %) where fen-b (1.83 %) does not alone"]
+
+
+def test_contact_time_note_when_the_trade_window_overstates_the_year():
+    # Catches: a trade rate sized on a short contact window that the simulated year does not bear out
+    # passing without a word (the default scenario's 7-day window gives 76.0 min/day; a year gives 71.7).
+    from types import SimpleNamespace
+
+    mission = SimpleNamespace(contact_s_per_day=76.0 * 60, contacts=SimpleNamespace(kind="elements", days=7.0))
+    note = sm._contact_time_note(mission, 71.7 * 60)
+    assert len(note) == 1 and "76.0 min/day" in note[0] and "71.7 min/day (+6.0 %)" in note[0]
+    assert "falls short of the daily requirement" in note[0]
+    assert sm._contact_time_note(mission, 75.0 * 60) == []  # within 2 %: no note
+    assert sm._contact_time_note(SimpleNamespace(contact_s_per_day=None, contacts=None), 71.7 * 60) == []

@@ -672,6 +672,7 @@ def _assemble(setup: SimulationSetup, work, results: list, storage_bits) -> Simu
     level = {"fixed": 0.0, "adaptive": 0.0}
     by_key = {(r.site_index, r.year): r for r in results}
     worst = (-1.0, 0.0, 0)  # (outage seconds, -min margin, day) of the representative day
+    union_visible_s = 0.0  # time a required site sees the spacecraft, simultaneous visibility once [s]
     for year in range(setup.years):
         pieces = [by_key[(link.site_index, year)] for link in setup.sites]
         d0 = year * DAYS_PER_YEAR
@@ -683,6 +684,7 @@ def _assemble(setup: SimulationSetup, work, results: list, storage_bits) -> Simu
                 np.bincount(day[out], minlength=DAYS_PER_YEAR) * step)
             longest[link.site_id] = max(longest[link.site_id], _longest_run_s(p.step_index[out], step))
         steps, fixed_rate, adaptive_rate = _merge_year(setup, pieces)
+        union_visible_s += steps.size * step
         day = steps // per_day
         cols["fixed_bits"][d0:d0 + DAYS_PER_YEAR] = np.bincount(day, weights=fixed_rate * step, minlength=DAYS_PER_YEAR)
         cols["adaptive_bits"][d0:d0 + DAYS_PER_YEAR] = np.bincount(day, weights=adaptive_rate * step,
@@ -736,6 +738,7 @@ def _assemble(setup: SimulationSetup, work, results: list, storage_bits) -> Simu
                                  "adaptive_store_bits": np.concatenate(hourly["adaptive"])})
     margin_day = _margin_day(setup, results, worst[2])
     notes = list(_notes(setup, work))
+    notes.extend(_contact_time_note(mission, union_visible_s / days_total))
     diversity = _diversity(setup, required)
     notes.extend(diversity_notes(diversity, availability_percent=required, band_id=setup.band_id))
     return SimulationResult(setup=setup, daily=daily, sites=sites, exceedance=_exceedance(setup, results),
@@ -768,6 +771,25 @@ def diversity_notes(diversity: pd.DataFrame, *, availability_percent: float, ban
                          f"{availability_percent:g} % availability at {band_id} (joint outage {joint:.4g} %) where "
                          f"{' and '.join(alone)} {'does' if len(alone) == 1 else 'do'} not alone")
     return notes
+
+
+#: Relative difference between the trade's contact time and the simulated one worth a note [-].
+CONTACT_TIME_NOTE_FRACTION = 0.02
+
+
+def _contact_time_note(mission, simulated_s_per_day: float) -> list[str]:
+    """A note when the trade sized its rate on a contact time the simulated years do not bear out."""
+    trade_s = mission.contact_s_per_day
+    contacts = mission.contacts
+    if (trade_s is None or contacts is None or contacts.kind == "geostationary" or simulated_s_per_day <= 0
+            or abs(trade_s / simulated_s_per_day - 1.0) <= CONTACT_TIME_NOTE_FRACTION):
+        return []
+    more = trade_s > simulated_s_per_day
+    return [f"the trade sized the rate on {trade_s / 60:.1f} min/day of contact over its {contacts.days:g}-day "
+            f"contact window; the simulated years average {simulated_s_per_day / 60:.1f} min/day "
+            f"({100 * (trade_s / simulated_s_per_day - 1):+.1f} %), so the fixed-rate volume falls "
+            f"{'short of' if more else 'above'} the daily requirement on average: give [contacts] days at least "
+            "one ground-track cycle of the orbit"]
 
 
 def _longest_run_s(steps: np.ndarray, step_s: float) -> float:
