@@ -276,9 +276,9 @@ def test_a_worker_lost_mid_run_is_retried_and_the_answer_is_unchanged(geo_scenar
 def test_s_band_has_no_rain_series_and_says_so():
     # Catches: an S-band design refused (P.1853-1 is stated for 4-55 GHz) or given a rain series out of
     # the method's range; the simulation must run on the statistical terms and say why.
-    setup, work = sm.simulation_setup(tradeopt.load_scenario(), band_id="S-DOWN", step_s=60.0)
+    setup, _ = sm.simulation_setup(tradeopt.load_scenario(), band_id="S-DOWN", step_s=60.0)
     assert setup.frequency_hz < 4e9 and not setup.weather and setup.rain_outside_synthesis
-    assert any("outside the 4-55 GHz" in n for n in sm._notes(setup, work))
+    assert any("outside the 4-55 GHz" in n for n in sm._notes(setup))
 
 
 def test_diversity_note_names_the_site_the_pair_rescues():

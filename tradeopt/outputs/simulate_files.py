@@ -214,13 +214,11 @@ def build_simulation_files(res, folder: str, *, plots: bool = True) -> dict[str,
     vline = version_line(ver)
     rec = _json_ready(simulation_record(res))
     files: dict[str, str | bytes] = {"simulation.json": json.dumps(rec, indent=2, sort_keys=True) + "\n"}
-    daily = res.daily.copy()
-    files["daily.csv"] = csv_text(daily, vline)
+    files["daily.csv"] = csv_text(res.daily, vline)
     files["sites.csv"] = csv_text(res.sites, vline)
     files["attenuation_exceedance.csv"] = csv_text(res.exceedance, vline)
     files["diversity.csv"] = csv_text(res.diversity, vline)
-    hourly = res.store_hourly
-    files["store_hourly.csv"] = csv_text(hourly, vline)
+    files["store_hourly.csv"] = csv_text(res.store_hourly, vline)
     files["margin_day.csv"] = csv_text(res.margin_day, vline)
     files["summary.txt"] = (simulation_text(res, folder) + "\n\ncautions:\n"
                             + "\n".join(f"  - {c}" for c in CAUTIONS) + "\n")

@@ -121,29 +121,27 @@ def study_client(options: ExecutionOptions) -> Iterator[Any]:
     if options.workers is None and options.scheduler is None:
         yield None
         return
-    import dask  # noqa: PLC0415
     from distributed import Client, LocalCluster  # noqa: PLC0415
 
     quiet = logging.getLogger("distributed")
     level = quiet.level
     quiet.setLevel(logging.ERROR)
     try:
-        with dask.config.set({"distributed.worker.daemon": False, "distributed.admin.tick.limit": "30s"}):
-            if options.scheduler is not None:
-                try:
-                    client = Client(options.scheduler, timeout=options.timeout_s, set_as_default=False)
-                except (OSError, TimeoutError) as exc:
-                    raise InputError(f"cannot reach the dask scheduler within {options.timeout_s:g} s "
-                                     f"({type(exc).__name__}); start one with 'dask scheduler' and "
-                                     "'dask worker ADDRESS', or use --workers N for a local cluster",
-                                     where=f"option --scheduler {options.scheduler}") from None
-                with client:
-                    yield client
-                return
-            cluster = LocalCluster(n_workers=options.workers, threads_per_worker=1, processes=True,
-                                   host="127.0.0.1", dashboard_address=None, silence_logs=logging.ERROR)
-            with cluster, Client(cluster, set_as_default=False) as client:
+        if options.scheduler is not None:
+            try:
+                client = Client(options.scheduler, timeout=options.timeout_s, set_as_default=False)
+            except (OSError, TimeoutError) as exc:
+                raise InputError(f"cannot reach the dask scheduler within {options.timeout_s:g} s "
+                                 f"({type(exc).__name__}); start one with 'dask scheduler' and "
+                                 "'dask worker ADDRESS', or use --workers N for a local cluster",
+                                 where=f"option --scheduler {options.scheduler}") from None
+            with client:
                 yield client
+            return
+        cluster = LocalCluster(n_workers=options.workers, threads_per_worker=1, processes=True,
+                               host="127.0.0.1", dashboard_address=None, silence_logs=logging.ERROR)
+        with cluster, Client(cluster, set_as_default=False) as client:
+            yield client
     finally:
         quiet.setLevel(level)
 

@@ -45,7 +45,7 @@ from ..physics import fades, noise, path, propagation
 from ..physics.units import SECONDS_PER_DAY
 from ..plan.contacts import satrec_for, site_table
 from ..trade.linkcalc import sky_noise_increase_at_receiver_k
-from ..trade.optimize import _ground_terms, design_ids, run_trade
+from ..trade.optimize import design_ids, ground_terms, run_trade
 from ..trade.space import site_geometry, site_terms_for_apertures
 from .cluster import ExecutionOptions, run_pieces, study_client
 
@@ -366,12 +366,14 @@ def simulation_setup(scenario, *, years: int = 1, seed: int = 0, step_s: float =
         skipped_rain = False
     g, a, m, c = rec["g"], rec["a"], rec["m"], rec["c"]
     row = space.ground.iloc[g]
-    gain_minus_point, t_clear = _ground_terms(space, g)
+    gain_minus_point, t_clear = ground_terms(space, g)
     rest = float(space.craft_antenna_term_db[a] + space.amplifier_term_db[m] + space.modcod_term_db[c]
                  + space.constant_term_db)
     mods = space.modcods
+    # the adaptive choices: the design's catalog family at its roll-off (same symbol rate, same bandwidth)
     family = str(mods["family"].iloc[c])
-    members = np.flatnonzero(mods["family"].to_numpy() == family)
+    rolloff = mods["rolloff"].to_numpy(float)
+    members = np.flatnonzero((mods["family"].to_numpy() == family) & np.isclose(rolloff, rolloff[c]))
     info = mods["info_bits_per_symbol"].to_numpy(float)
     # same symbol rate: rate scales with the information bits per symbol; the margin with the threshold
     # (W[c] = -required Eb/N0) and with 10 log10 of the rate
@@ -737,7 +739,7 @@ def _assemble(setup: SimulationSetup, work, results: list, storage_bits) -> Simu
                                  "fixed_store_bits": np.concatenate(hourly["fixed"]),
                                  "adaptive_store_bits": np.concatenate(hourly["adaptive"])})
     margin_day = _margin_day(setup, results, worst[2])
-    notes = list(_notes(setup, work))
+    notes = list(_notes(setup))
     notes.extend(_contact_time_note(mission, union_visible_s / days_total))
     diversity = _diversity(setup, required)
     notes.extend(diversity_notes(diversity, availability_percent=required, band_id=setup.band_id))
@@ -815,7 +817,7 @@ def _margin_day(setup: SimulationSetup, results: list, day: int) -> pd.DataFrame
     return pd.concat(frames, ignore_index=True)
 
 
-def _notes(setup: SimulationSetup, work):
+def _notes(setup: SimulationSetup):
     src = {"best": "the trade's best design", "band best": f"the best design of {setup.band_id}",
            "closest miss": f"the closest miss of {setup.band_id} (no design of the band keeps every constraint)"}
     yield f"simulated {src[setup.design_source]}"
@@ -838,4 +840,3 @@ def _notes(setup: SimulationSetup, work):
                "the gas, cloud and scintillation terms at the availability stay in the margin")
     elif not setup.weather:
         yield "no rain: the clear-sky reference"
-    del work

@@ -21,7 +21,7 @@ from .sizing import dish_curve, dish_model, least_rf_power_w, min_dish_diameter_
 from ..plan.mission import plan_mission, with_network_choice
 from .space import BandSpace, build_band_space, site_geometry, site_terms_for_apertures
 
-__all__ = ["TradeWork", "TradeResult", "TradeStatus", "optimize", "run_trade", "validate_optimize_args", "DESIGNS_CSV_MAX", "design_ids", "design_link_dict", "budget_of_design", "reason_text",
+__all__ = ["TradeWork", "TradeResult", "TradeStatus", "optimize", "run_trade", "validate_optimize_args", "DESIGNS_CSV_MAX", "design_ids", "ground_terms", "design_link_dict", "budget_of_design", "reason_text",
            "misses_text",
            "AVAILABILITY_GRID_PERCENT", "ELEVATION_GRID_DEG"]
 
@@ -136,7 +136,7 @@ def budget_of_design(scenario, space: BandSpace, rec: dict, site) -> dict:
     return compute_link(spec)
 
 
-def _ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
+def ground_terms(space: BandSpace, g: int) -> tuple[float, float]:
     """Gain minus pointing loss [dB] and clear-sky system noise temperature [K] of ground antenna ``g``.
 
     Both are taken back out of the search's own vectors (X[g] holds the limiting site's terms), so
@@ -192,7 +192,7 @@ def _evidence(scenario, res: TradeWork) -> None:
         if best is None:
             continue
         rest = space.craft_antenna_term_db[best["a"]] + space.amplifier_term_db[best["m"]] + space.modcod_term_db[best["c"]] + space.constant_term_db
-        gain_minus_point, t_clear = _ground_terms(space, g)
+        gain_minus_point, t_clear = ground_terms(space, g)
         for site in [s for s in scenario.sites if s.required]:
             # The first point is the optimizer's own geometry at the mask (propagated range when the
             # scenario has it), so the curve starts at the margin the search constrained.
@@ -392,7 +392,7 @@ def _volume_analysis(scenario, res: TradeWork, best: dict) -> dict:
     edges = np.asarray(plan.bin_edges_deg, dtype=float)
     g = best["g"]
     row = space.ground.iloc[g]
-    gain_minus_point, t_clear = _ground_terms(space, g)
+    gain_minus_point, t_clear = ground_terms(space, g)
     rest_c = space.craft_antenna_term_db[best["a"]] + space.amplifier_term_db[best["m"]] + space.modcod_term_db + space.constant_term_db  # (C,)
     info = space.modcods["info_bits_per_symbol"].to_numpy(float)
     roll = space.modcods["rolloff"].to_numpy(float)
