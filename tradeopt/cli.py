@@ -268,5 +268,27 @@ def main(argv: list[str] | None = None) -> int:
         return 0
 
 
+def console_main() -> None:
+    """The ``tradeopt`` console script: :func:`main`, then leave without the interpreter's teardown.
+
+    When :func:`main` returns, every file is written and closed; what remains is to flush the output
+    and exit. Python's own teardown (freeing some hundred thousand objects: models, tables, figures,
+    one by one) would delay the prompt by most of a second and change nothing, so the process ends at
+    once with :func:`os._exit` after flushing standard output, standard error and any logging handlers.
+    In-process callers (tests, notebooks) use :func:`main`, which returns normally.
+    """
+    import os
+
+    code = main()
+    if "logging" in sys.modules:
+        sys.modules["logging"].shutdown()
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (BrokenPipeError, ValueError):  # a reader that stopped early, or a closed stream
+            pass
+    os._exit(code)
+
+
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    console_main()

@@ -118,6 +118,7 @@ def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=Fa
         from .inputs.scenario import load_scenario
         from .outputs.report import build_files, summary_dict, summary_text
         from .outputs.writer import check_out_dir, write_results
+        from .outputs.plots import figure_helpers
         from .outputs.provenance import clean_for_json
         from .trade.optimize import optimize
 
@@ -129,9 +130,12 @@ def run_optimize(*, scenario_path=None, objective=None, out_dir=None, as_json=Fa
         inputs = _scenario_inputs(scenario_path, scenario)
         check_out_dir(target, inputs=inputs)  # the default folder too; and now the catalogs and samples are known
         progress.step("trade: contacts, propagation, search, sizing and evidence")
-        res = optimize(scenario, objective=objective)
-        progress.step("writing the results: tables and plots")
-        files = build_files(res, str(target))
+        # A figure process imports matplotlib and Jinja2 on the idle processor while the trade runs
+        # here, then renders the page beside the PNG figures (none on a busy or one-processor machine).
+        with figure_helpers(1) as helpers:
+            res = optimize(scenario, objective=objective)
+            progress.step("writing the results: tables and plots")
+            files = build_files(res, str(target), helpers=helpers)
         write_results(target, files, inputs=inputs)
     if as_json:
         print(json.dumps(clean_for_json(summary_dict(res, str(target))), indent=2, sort_keys=True))

@@ -11,6 +11,7 @@ gives byte-identical PNG files (no time stamps; the ``Software`` text is given b
 """
 from __future__ import annotations
 
+import contextlib
 import io
 import os
 import pickle
@@ -330,6 +331,19 @@ def _import_matplotlib() -> None:
         importlib.import_module(name)
 
 
+def prepare_child(*, modules=()) -> None:
+    """Import the figure modules (and ``modules``) before forking, so that parent and child share them
+    instead of each importing them on its own; and load the default font once, for the same reason."""
+    import importlib  # noqa: PLC0415
+
+    _import_matplotlib()
+    for name in modules:
+        importlib.import_module(name)
+    from matplotlib import font_manager  # noqa: PLC0415
+
+    font_manager.get_font(font_manager.findfont(font_manager.FontProperties()))
+
+
 def _processors() -> int:
     try:
         return len(os.sched_getaffinity(0))
@@ -337,14 +351,36 @@ def _processors() -> int:
         return os.cpu_count() or 1
 
 
+def _runnable_processes() -> int | None:
+    """How many processes are runnable on this machine right now, this one included (Linux
+    ``/proc/stat``, the least of three readings 2 ms apart); None where it cannot be read."""
+    least = None
+    for i in range(3):
+        if i:
+            time.sleep(0.002)
+        try:
+            with open("/proc/stat", encoding="ascii") as fh:
+                running = next(int(line.split()[1]) for line in fh if line.startswith("procs_running"))
+        except (OSError, StopIteration, ValueError, IndexError):
+            return None
+        least = running if least is None else min(least, running)
+    return least
+
+
 def _second_processor_free() -> bool:
-    """Whether a second process can draw at the same time: Linux (fork), two processors for this
-    process, and at least one of them idle over the last minute (on a busy machine a second process
-    only competes with the first)."""
+    """Whether a second process can work at the same time: Linux (fork), two processors for this
+    process, and one of them idle now (on a busy machine a second process only competes with the
+    first). Idle is read from the runnable processes, not the load average: the load average also
+    counts tasks waiting on the disk, and on some virtual machines it stays near 1 when idle."""
     if not (sys.platform.startswith("linux") and hasattr(os, "fork")):
         return False
     n = _processors()
-    return n >= 2 and os.getloadavg()[0] <= n - 1
+    if n < 2:
+        return False
+    running = _runnable_processes()
+    if running is None:
+        return os.getloadavg()[0] <= n - 1
+    return running <= n - 1
 
 
 def start_child(function, *args):
@@ -359,7 +395,8 @@ def start_child(function, *args):
     if pid == 0:  # the child: run, send, and leave at once
         code = 1
         try:
-            os.close(read_fd)
+            for fd in (read_fd, *_HELPER_FDS):
+                os.close(fd)
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")
                 data = pickle.dumps(function(*args))
@@ -394,6 +431,125 @@ def collect_child(pid: int, read_fd: int, timeout_s: float):
         return pickle.loads(b"".join(chunks))
     except Exception:  # a child that failed part way: its work is redone here instead
         return None
+
+
+def _write_all(fd: int, data: bytes) -> None:
+    """Write ``data`` to a pipe and close it (a reader that has gone away ends the writing quietly)."""
+    try:
+        view = memoryview(data)
+        while view:
+            view = view[os.write(fd, view):]
+    except OSError:  # BrokenPipeError among them: the reader died; its job is redone by the caller
+        pass
+    finally:
+        os.close(fd)
+
+
+#: This process's ends of the helpers' pipes: a helper forked later closes its copies, or a helper
+#: started earlier would never see the end of its job.
+_HELPER_FDS: set[int] = set()
+
+
+class FigureHelper:
+    """A forked process that imports the figure modules now and runs one job later, for this one.
+
+    Started before a long computation, it spends its imports (matplotlib, Jinja2, fonts: most of a
+    second) on a processor that would otherwise be idle; :meth:`submit` then hands it one function
+    of module level and its arguments (pickled), and :meth:`result` collects the pickled answer, or
+    None if it failed or took longer than allowed (the caller then does the work itself, so the
+    files are the same either way). Always :meth:`close` it (or use :func:`figure_helpers`): a
+    helper that was given no job waits for one, and is stopped by closing.
+    """
+
+    def __init__(self, modules: tuple[str, ...] = ()):
+        job_read, job_write = os.pipe()
+        result_read, result_write = os.pipe()
+        pid = os.fork()
+        if pid == 0:  # the helper: prepare, wait for the job, run it, send the answer, leave at once
+            code = 1
+            try:
+                for fd in (job_write, result_read, *_HELPER_FDS):
+                    os.close(fd)
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")
+                    prepare_child(modules=modules)
+                    chunks = []
+                    while chunk := os.read(job_read, 1 << 20):
+                        chunks.append(chunk)
+                    if chunks:
+                        function, args, kwargs = pickle.loads(b"".join(chunks))
+                        _write_all(result_write, pickle.dumps(function(*args, **kwargs)))
+                code = 0
+            finally:
+                os._exit(code)
+        os.close(job_read)
+        os.close(result_write)
+        _HELPER_FDS.update((job_write, result_read))
+        self.pid = pid
+        self._job_fd: int | None = job_write
+        self._result_fd: int | None = result_read
+        self._writer = None
+
+    def _take(self, name: str) -> int | None:
+        fd = getattr(self, name)
+        setattr(self, name, None)
+        if fd is not None:
+            _HELPER_FDS.discard(fd)
+        return fd
+
+    def submit(self, function, *args, **kwargs) -> None:
+        """Hand the helper ``function(*args, **kwargs)``; returns at once (a thread feeds the pipe,
+        so that this process goes on while the helper may still be importing)."""
+        import threading  # noqa: PLC0415
+
+        fd = self._take("_job_fd")
+        if fd is None:
+            raise RuntimeError("a figure helper takes one job")
+        data = pickle.dumps((function, args, kwargs), protocol=pickle.HIGHEST_PROTOCOL)
+        self._writer = threading.Thread(target=_write_all, args=(fd, data), daemon=True)
+        self._writer.start()
+
+    def result(self, timeout_s: float):
+        """The job's answer, or None (failed, not submitted, or not done within ``timeout_s``)."""
+        if self._job_fd is not None or self._result_fd is None:  # no job was given, or already collected
+            self.close()
+            return None
+        answer = collect_child(self.pid, self._take("_result_fd"), timeout_s)
+        if self._writer is not None:
+            self._writer.join(timeout=1.0)
+        return answer
+
+    def close(self) -> None:
+        """Stop the helper if it is still there (idempotent)."""
+        job_fd, result_fd = self._take("_job_fd"), self._take("_result_fd")
+        if job_fd is not None:
+            os.close(job_fd)
+        if result_fd is not None:  # not collected: stop it and reap it
+            try:
+                os.kill(self.pid, signal.SIGKILL)
+            except ProcessLookupError:  # pragma: no cover  (already gone)
+                pass
+            os.close(result_fd)
+            os.waitpid(self.pid, 0)
+
+
+#: What a figure helper imports before it is given its job: the figure and page modules.
+HELPER_MODULES = ("matplotlib.backends.backend_svg", "jinja2", "markupsafe", "tradeopt.outputs.report_html")
+
+
+@contextlib.contextmanager
+def figure_helpers(count: int):
+    """Up to ``count`` :class:`FigureHelper` processes when a second processor is free (else none);
+    every one stopped on leaving the block."""
+    helpers: list[FigureHelper] = []
+    try:
+        if count > 0 and _second_processor_free():
+            for _ in range(count):
+                helpers.append(FigureHelper(HELPER_MODULES))
+        yield helpers
+    finally:
+        for helper in helpers:
+            helper.close()
 
 
 def second_processor_free() -> bool:

@@ -11,6 +11,7 @@ from __future__ import annotations
 import dataclasses
 import io
 import json
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -293,11 +294,14 @@ REPORT_CHILD_TIMEOUT_S = 120.0
 
 
 def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
-                report: bool | None = None) -> dict[str, str | bytes]:
+                report: bool | None = None, helpers: Sequence = ()) -> dict[str, str | bytes]:
     """Every file of the results folder, in memory (name -> content), from the trade's result alone.
 
     ``report`` (default: as ``plots``) adds report.html, rendered from the other files alone
     (:mod:`tradeopt.outputs.report_html`), so that ``tradeopt report`` re-renders the same bytes.
+    ``helpers``: a :class:`tradeopt.outputs.plots.FigureHelper` process started earlier (see
+    :func:`tradeopt.outputs.plots.figure_helpers`) renders the page while the PNG figures are drawn
+    here; the files are the same with or without it.
     """
     ver = versions()
     vline = version_line(ver)
@@ -349,15 +353,24 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
     text = summary_text(res, results_dir)
     files["summary.txt"] = text + "\n\ncautions:\n" + "\n".join(f"  - {c}" for c in CAUTIONS) + "\n"
     want_report = plots if report is None else report
-    child = None
+    child = html_helper = None
     if plots:
-        from .plots import collect_child, second_processor_free, start_child, trade_plots  # noqa: PLC0415
+        from .plots import collect_child, prepare_child, second_processor_free, start_child, trade_plots  # noqa: PLC0415
 
-        if want_report and second_processor_free():
+        if want_report and helpers:
+            # A process started before the trade, its imports done while the trade ran, renders the
+            # page while the PNG figures are drawn here; its job is redone here if it fails.
+            from .report_html import report_html  # noqa: PLC0415
+
+            html_helper = helpers[0]
+            html_helper.submit(report_html, dict(files))
+            files.update(trade_plots(res, software=vline, processes=1))
+        elif want_report and second_processor_free():
             # The page is built from the tables and best.json alone (never from the PNG files), so a
             # forked process renders it while the PNG figures are drawn here: the same bytes, sooner.
             from .report_html import report_html  # noqa: PLC0415
 
+            prepare_child(modules=("matplotlib.backends.backend_svg", "jinja2", "markupsafe"))
             child = start_child(report_html, dict(files))
             files.update(trade_plots(res, software=vline, processes=1))
         else:
@@ -372,6 +385,10 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
     if want_report:
         from .report_html import REPORT_NAME, report_html  # noqa: PLC0415
 
-        html = collect_child(*child, REPORT_CHILD_TIMEOUT_S) if child is not None else None
+        html = None
+        if child is not None:
+            html = collect_child(*child, REPORT_CHILD_TIMEOUT_S)
+        elif html_helper is not None:
+            html = html_helper.result(REPORT_CHILD_TIMEOUT_S)
         files[REPORT_NAME] = html if isinstance(html, str) else report_html(files)
     return files
