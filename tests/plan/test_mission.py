@@ -180,3 +180,51 @@ def test_quantization_below_required_snr_is_a_warning():
     q = d.quantization[0]
     assert q["quantization_snr_db"] == pytest.approx(61.96) and q["meets"] is False and q["bits_needed"] == 12
     assert any("quantization" in w for w in d.warnings)
+
+
+def test_contact_window_warning_names_the_gap_and_its_direction():
+    # Arithmetic: the rate is volume / contact time, so sizing on 76.0 min/day where a cycle gives 71.7
+    # leaves the rate 76.0 / 71.7 - 1 = 6.0 % low. Catches: the ratio inverted, the direction of the
+    # error reversed, and a warning within the 2 % threshold (or none beyond it).
+    from tradeopt.plan.mission import CONTACT_WINDOW_WARNING_FRACTION, contact_window_warning
+
+    text = contact_window_warning(76.0 * 60, 7.0, 71.7 * 60, 56.0)
+    assert "76.0 min/day" in text and "71.7 min/day" in text and "(+6.0 %)" in text
+    assert "6.0 % too low" in text and "days = 56" in text
+    assert "too high" in contact_window_warning(70.0 * 60, 7.0, 75.0 * 60, 56.0)
+    inside = 1.0 + 0.9 * CONTACT_WINDOW_WARNING_FRACTION
+    assert contact_window_warning(60.0 * inside, 7.0, 60.0, 56.0) is None
+    assert contact_window_warning(60.0 * 1.03, 7.0, 60.0, 56.0) is not None
+    assert contact_window_warning(60.0, 56.0, None, 56.0) is None  # the contact window is the long window
+
+
+def test_long_window_contact_time_matches_the_contact_plan_over_the_same_days(monkeypatch):
+    # Catches: the long window counting other sites than the required ones (the rate's), another mask,
+    # or a contact time that is not per day. The long window is set a few seconds past the contact
+    # window, so both must agree (pass edges are refined to under a second on either step: 0.2 %).
+    from tradeopt.plan import mission as plan_mission_module
+    from tradeopt.plan.contacts import contact_plan
+    from tradeopt.plan.mission import required_rate_bps
+
+    data = _default_dict(days=3.0)
+    data["sites"][1]["required"] = False  # a site outside the rate must stay outside the long window too
+    sc = scenario_from_dict(data, file="<test>", base_dir=DATA)
+    plan = contact_plan(sc)
+    _, contact_s = required_rate_bps(sc, plan, 1e12)
+    monkeypatch.setattr(orb, "gap_window_days", lambda sat, days: (days + 1e-4, 56.0))
+    monkeypatch.setattr(plan_mission_module, "_GAP_MEMO", {})
+    _, long_contact_s, window, _ = plan_mission_module._long_window(sc, plan)
+    assert window["gap_window_days"] > plan.days
+    assert long_contact_s == pytest.approx(contact_s, rel=2e-3)
+
+
+def test_default_scenario_warns_that_its_week_overstates_the_cycle():
+    # The default scenario's 7-day window gives 76.0 min/day; its 56-day ground-track cycle gives 71.7
+    # (a year simulated at 1 s by 'tradeopt simulate' also gives 71.7). Catches: the warning lost on
+    # the way to the mission plan's warnings.
+    from tradeopt.plan.mission import plan_mission
+
+    plan = plan_mission(load_scenario(None))
+    found = [w for w in plan.warnings if "the rate is sized on" in w]
+    assert len(found) == 1
+    assert "76.0 min/day" in found[0] and "71.7 min/day" in found[0] and "over 56 days" in found[0]

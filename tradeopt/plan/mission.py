@@ -369,24 +369,30 @@ def with_network_choice(scenario, plan: MissionPlan, rate_bps_by_site: dict) -> 
 _GAP_MEMO: dict = {}
 _GAP_MEMO_SIZE = 8
 
+#: A contact window whose contact time differs from the cycle-long window's by more than this
+#: fraction is warned about when it sizes the rate [-] (common practice: a few per cent is within
+#: the spread of a planning figure; 2 % chosen here).
+CONTACT_WINDOW_WARNING_FRACTION = 0.02
 
-def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
-    """Worst gap [s] of the required sites (union) for the storage check, the window it came from, and a
-    TLE-age warning for that window (None when not needed).
+
+def _long_window(scenario, plan: ContactPlan) -> tuple[float, float | None, dict, str | None]:
+    """The required sites' (union) worst gap [s] and contact time [s/day] over the long window, the
+    window it came from, and a TLE-age warning for that window (None when not needed).
 
     A geostationary slot is seen continuously (no gap). For an orbit the window is
     :func:`tradeopt.mission.orbit.gap_window_days`: the contact window, at least 30 days and one
-    ground-track cycle up to a year; beyond the contact window only the gap is computed, on a step
-    of at least :data:`tradeopt.mission.orbit.GAP_WINDOW_STEP_S` (the histograms, volumes and network
-    choice keep the contact window).
+    ground-track cycle up to a year; beyond the contact window the passes are found on a step of at
+    least :data:`tradeopt.mission.orbit.GAP_WINDOW_STEP_S` and only the gap and the contact time are
+    kept (the histograms, volumes and network choice keep the contact window). The contact time is
+    None when the long window is the contact window itself.
     """
     req_idx = [i for i, s in enumerate(plan.sites) if s.required]
     passes = plan.passes[plan.passes["site_index"].isin(req_idx)]
     worst_gap = float(orb.network_contact_statistics(passes, plan.start_utc, plan.days).iloc[0]["max_gap_s"])
     if plan.kind == "geostationary":
-        return worst_gap, {"gap_window_days": plan.days, "gap_window_step_s": None, "continuous": True,
-                           "gap_window_basis": "fixed geometry: the required sites see the geostationary slot "
-                                               "continuously, so there is no gap"}, None
+        return worst_gap, None, {"gap_window_days": plan.days, "gap_window_step_s": None, "continuous": True,
+                                 "gap_window_basis": "fixed geometry: the required sites see the geostationary "
+                                                     "slot continuously, so there is no gap"}, None
     sat = satrec_for(scenario)
     days, cycle = orb.gap_window_days(sat, plan.days)
     step = float(scenario.contacts.step_s)
@@ -395,26 +401,63 @@ def _storage_gap(scenario, plan: ContactPlan) -> tuple[float, dict, str | None]:
         rule = (f"one year: the ground-track cycle is not covered within {orb.GAP_WINDOW_MAX_DAYS:g} days, so the "
                 "worst gap may be understated")
     warning = None
+    contact_s = None
     if days > plan.days:
         step = max(step, orb.GAP_WINDOW_STEP_S)
         sub = {k: v[req_idx] for k, v in site_table(plan.sites).items()}
         masks = [plan.sites[i].min_elevation_deg for i in req_idx]
         key = (type(scenario.orbit).__name__, scenario.orbit, str(plan.start_utc), float(days), float(step),
                tuple(tuple(float(x) for x in v) for v in sub.values()), tuple(float(m) for m in masks))
-        gap = _GAP_MEMO.get(key)
-        if gap is None:
-            gap = float(orb.network_worst_gap_s(sat, plan.start_utc, days, sub, masks, step_s=step))
-            _GAP_MEMO[key] = gap
+        found = _GAP_MEMO.get(key)
+        if found is None:
+            row = orb.network_window_statistics(sat, plan.start_utc, days, sub, masks, step_s=step).iloc[0]
+            found = (float(row["max_gap_s"]), float(row["contact_s_per_day"]))
+            _GAP_MEMO[key] = found
             while len(_GAP_MEMO) > _GAP_MEMO_SIZE:
                 _GAP_MEMO.pop(next(iter(_GAP_MEMO)))
-        worst_gap = max(worst_gap, gap)
+        worst_gap = max(worst_gap, found[0])
+        contact_s = found[1]
         if scenario.orbit_kind == "tle":
             warning = orb.tle_age_warning(sat, plan.start_utc, days)
         basis = f"{rule}; gap only, {step:g} s step"
     else:
         basis = f"the {plan.days:g}-day contact window, which covers {rule}"
-    return worst_gap, {"gap_window_days": days, "gap_window_step_s": step, "continuous": False,
-                       "gap_window_basis": basis}, warning
+    return worst_gap, contact_s, {"gap_window_days": days, "gap_window_step_s": step, "continuous": False,
+                                  "gap_window_basis": basis}, warning
+
+
+def contact_window_warning(contact_s_per_day: float, window_days: float, long_contact_s_per_day: float | None,
+                           long_window_days: float) -> str | None:
+    """A warning when the rate is sized on a contact window whose contact time the long window does not bear out.
+
+    Parameters
+    ----------
+    contact_s_per_day : float
+        The required sites' contact time over the contact window, which sized the rate [s/day].
+    window_days : float
+        The contact window [day].
+    long_contact_s_per_day : float or None
+        The same over the long window (one ground-track cycle, at least 30 days) [s/day]; None when
+        the contact window is the long window.
+    long_window_days : float
+        The long window [day].
+
+    Returns
+    -------
+    str or None
+        The warning, or None within :data:`CONTACT_WINDOW_WARNING_FRACTION`.
+    """
+    if long_contact_s_per_day is None or long_contact_s_per_day <= 0.0:
+        return None
+    excess = contact_s_per_day / long_contact_s_per_day - 1.0
+    if abs(excess) <= CONTACT_WINDOW_WARNING_FRACTION:
+        return None
+    return (f"the rate is sized on {contact_s_per_day / 60:.1f} min/day of contact over the "
+            f"{window_days:g}-day contact window, but over {long_window_days:g} days (at least 30 days and one "
+            f"ground-track cycle) the required sites see {long_contact_s_per_day / 60:.1f} min/day "
+            f"({100 * excess:+.1f} %): "
+            f"the rate is about {abs(100 * excess):.1f} % too {'low' if excess > 0 else 'high'} to deliver the daily "
+            f"volume on average; give [contacts] days = {long_window_days:g} to size it on the whole cycle")
 
 
 def _split_notes(lines) -> tuple[list, list]:
@@ -480,8 +523,11 @@ def plan_mission(scenario) -> MissionPlan:
                  f"{contact_s / 60:.1f} min/day of contact above the masks of the required sites (simultaneous "
                  "visibility counted once); a design that closes at the mask delivers it")
     storage = None
+    worst_gap, long_contact_s, window, age = _long_window(scenario, contacts)
+    window_warning = contact_window_warning(contact_s, contacts.days, long_contact_s, window["gap_window_days"])
+    if window_warning:
+        warnings.append(window_warning)
     if req.storage_bits is not None:
-        worst_gap, window, age = _storage_gap(scenario, contacts)
         if age:  # the longer gap window propagates the TLE farther: one warning, for the farthest time
             warnings = [w for w in warnings if w not in contact_warnings] + [age]
         from ..mission.volume import storage_needed_bits  # noqa: PLC0415

@@ -44,6 +44,7 @@ from ..mission.storage import store_timeline
 from ..physics import fades, noise, path, propagation
 from ..physics.units import SECONDS_PER_DAY
 from ..plan.contacts import satrec_for, site_table
+from ..plan.mission import CONTACT_WINDOW_WARNING_FRACTION
 from ..trade.linkcalc import sky_noise_increase_at_receiver_k
 from ..trade.optimize import design_ids, ground_terms, run_trade
 from ..trade.space import site_geometry, site_terms_for_apertures
@@ -775,8 +776,9 @@ def diversity_notes(diversity: pd.DataFrame, *, availability_percent: float, ban
     return notes
 
 
-#: Relative difference between the trade's contact time and the simulated one worth a note [-].
-CONTACT_TIME_NOTE_FRACTION = 0.02
+#: Relative difference between the trade's contact time and the simulated one worth a note [-]
+#: (the same as the trade's own warning about its contact window).
+CONTACT_TIME_NOTE_FRACTION = CONTACT_WINDOW_WARNING_FRACTION
 
 
 def _contact_time_note(mission, simulated_s_per_day: float) -> list[str]:

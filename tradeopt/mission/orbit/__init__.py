@@ -78,6 +78,7 @@ from .windows import (
     TLE_MAX_PROPAGATION_DAYS,
     gap_window_days,
     ground_track_cycle_days,
+    network_window_statistics,
     network_worst_gap_s,
     tle_age_warning,
     tle_epoch_offset_days,
@@ -113,4 +114,5 @@ __all__ = [
     "ground_track_cycle_days",
     "gap_window_days",
     "network_worst_gap_s",
+    "network_window_statistics",
 ]

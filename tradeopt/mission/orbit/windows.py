@@ -29,7 +29,7 @@ if TYPE_CHECKING:
 
 __all__ = ["EARTH_ROTATION_RAD_PER_S", "TLE_MAX_PROPAGATION_DAYS", "GAP_WINDOW_MIN_DAYS", "GAP_WINDOW_MAX_DAYS",
            "GAP_PHASE_TOLERANCE", "GAP_WINDOW_STEP_S", "tle_epoch_offset_days", "tle_age_warning",
-           "ground_track_cycle_days", "gap_window_days", "network_worst_gap_s"]
+           "ground_track_cycle_days", "gap_window_days", "network_worst_gap_s", "network_window_statistics"]
 
 
 #: Earth's rotation rate [rad/s] (WGS84, NIMA TR8350.2).
@@ -192,9 +192,10 @@ def gap_window_days(satrec: Satrec, days: float) -> tuple[float, float]:
     return float(max(float(days), min(max(GAP_WINDOW_MIN_DAYS, cycle), GAP_WINDOW_MAX_DAYS))), cycle
 
 
-def network_worst_gap_s(satrec: Satrec, start_utc: Any, days: float, sites: Any, min_elevation_deg: npt.ArrayLike,
-                        *, step_s: float = GAP_WINDOW_STEP_S, chunk_s: float = 10 * _DAY_S) -> float:
-    """Longest gap [s] with no site in contact (each site above its own mask) over the window.
+def network_window_statistics(satrec: Satrec, start_utc: Any, days: float, sites: Any,
+                              min_elevation_deg: npt.ArrayLike, *, step_s: float = GAP_WINDOW_STEP_S,
+                              chunk_s: float = 10 * _DAY_S) -> pd.DataFrame:
+    """Network contact statistics (each site above its own mask) over a window, from its passes alone.
 
     Parameters
     ----------
@@ -216,8 +217,9 @@ def network_worst_gap_s(satrec: Satrec, start_utc: Any, days: float, sites: Any,
 
     Returns
     -------
-    max_gap_s : float
-        As :func:`network_contact_statistics` ``max_gap_s`` [s].
+    stats : pandas.DataFrame
+        As :func:`network_contact_statistics`: ``contacts_per_day`` [1/day], ``contact_s_per_day``
+        [s/day], ``mean_gap_s`` [s], ``max_gap_s`` [s].
 
     References
     ----------
@@ -235,4 +237,18 @@ def network_worst_gap_s(satrec: Satrec, start_utc: Any, days: float, sites: Any,
         p["site_index"] = idx[p["site_index"].to_numpy(int)]
         frames.append(p)
     passes = pd.concat(frames, ignore_index=True)
-    return float(network_contact_statistics(passes, start_utc, days).iloc[0]["max_gap_s"])
+    return network_contact_statistics(passes, start_utc, days)
+
+
+def network_worst_gap_s(satrec: Satrec, start_utc: Any, days: float, sites: Any, min_elevation_deg: npt.ArrayLike,
+                        *, step_s: float = GAP_WINDOW_STEP_S, chunk_s: float = 10 * _DAY_S) -> float:
+    """Longest gap [s] with no site in contact over the window: :func:`network_window_statistics`
+    ``max_gap_s`` (same parameters).
+
+    References
+    ----------
+    Common practice (interval union of station visibilities).
+    """
+    stats = network_window_statistics(satrec, start_utc, days, sites, min_elevation_deg, step_s=step_s,
+                                      chunk_s=chunk_s)
+    return float(stats.iloc[0]["max_gap_s"])
