@@ -177,3 +177,16 @@ def test_results_files_drawn_by_figure_helpers_are_the_same_files(res, monkeypat
     with plots.figure_helpers(1) as helpers:
         os.kill(helpers[0].pid, signal.SIGKILL)  # it dies before its job: the page is rendered here
         assert report.build_files(res, "out", helpers=helpers) == here
+
+
+def test_figure_helpers_without_a_process_to_spare(monkeypatch):
+    # Catches: a command that fails when the system refuses a new process (process limits) instead of
+    # drawing everything itself.
+    monkeypatch.setattr(plots, "_second_processor_free", lambda: True)
+
+    def no_fork():
+        raise BlockingIOError("Resource temporarily unavailable")
+
+    monkeypatch.setattr(plots.os, "fork", no_fork)
+    with plots.figure_helpers(1) as helpers:
+        assert helpers == []

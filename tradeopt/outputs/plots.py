@@ -464,7 +464,12 @@ class FigureHelper:
     def __init__(self, modules: tuple[str, ...] = ()):
         job_read, job_write = os.pipe()
         result_read, result_write = os.pipe()
-        pid = os.fork()
+        try:
+            pid = os.fork()
+        except OSError:
+            for fd in (job_read, job_write, result_read, result_write):
+                os.close(fd)
+            raise
         if pid == 0:  # the helper: prepare, wait for the job, run it, send the answer, leave at once
             code = 1
             try:
@@ -545,7 +550,10 @@ def figure_helpers(count: int):
     try:
         if count > 0 and _second_processor_free():
             for _ in range(count):
-                helpers.append(FigureHelper(HELPER_MODULES))
+                try:
+                    helpers.append(FigureHelper(HELPER_MODULES))
+                except OSError:  # no process or pipe to spare (limits): the work is done here instead
+                    break
         yield helpers
     finally:
         for helper in helpers:
