@@ -293,6 +293,14 @@ def test_default_scenario_page_is_under_5_mib_and_complete(tmp_path):
         assert words in text, words
     for site in res.scenario.sites:
         assert site.id in text
+    # The default scenario has a warning (its 7-day contact window against the ground-track cycle):
+    # the verdict at the top says so and links to it. Catches: a warning only at the foot of the page,
+    # under a verdict that reads as unqualified.
+    verdict = page.find("div", **{"class": "verdict verdict-success"})
+    assert len(verdict) == 1
+    assert ("a", {"href": "#warnings"}) in page.descendants(verdict[0])
+    assert len(page.find("h3", id="warnings")) == 1
+    assert "the rate is sized on 76.0 min/day" in text
 
 
 def test_each_constraint_sentence_is_counted_under_its_own_constraint():

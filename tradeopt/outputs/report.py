@@ -355,7 +355,7 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
     want_report = plots if report is None else report
     child = html_helper = None
     if plots:
-        from .plots import collect_child, prepare_child, second_processor_free, start_child, trade_plots  # noqa: PLC0415
+        from .plots import HELPER_MODULES, collect_child, prepare_child, second_processor_free, start_child, trade_plots  # noqa: PLC0415
 
         if want_report and helpers:
             # A process started before the trade, its imports done while the trade ran, renders the
@@ -370,7 +370,7 @@ def build_files(res: TradeResult, results_dir: str, *, plots: bool = True,
             # forked process renders it while the PNG figures are drawn here: the same bytes, sooner.
             from .report_html import report_html  # noqa: PLC0415
 
-            prepare_child(modules=("matplotlib.backends.backend_svg", "jinja2", "markupsafe"))
+            prepare_child(modules=HELPER_MODULES)
             child = start_child(report_html, dict(files))
             files.update(trade_plots(res, software=vline, processes=1))
         else:
